@@ -1,0 +1,188 @@
+//! Rig formats compiled from their manifests, and recognising which one a file is.
+
+use crate::error::{FormatError, IngestError, RejectKind};
+use crate::text::head_text;
+use std::path::{Path, PathBuf};
+use twistlot_model::plugin::{Detect, ExecSpec, Layout, Manifest, RigFormatManifest};
+
+/// The native format's manifest, shipped in `plugins/rig-formats/`; exec converters print this format.
+pub const NATIVE_MANIFEST: &str = include_str!("../../../plugins/rig-formats/native.yaml");
+/// The native format's plugin name.
+pub const NATIVE_NAME: &str = "native";
+
+/// How a format's files are turned into curves.
+#[derive(Debug, Clone)]
+pub enum Reader {
+    /// A declarative layout read in-process.
+    Layout(Layout),
+    /// A converter program that prints the native format.
+    Exec {
+        /// How to run it.
+        spec: ExecSpec,
+        /// The folder its manifest is in (its working directory).
+        plugin_dir: PathBuf,
+    },
+}
+
+/// A rig format ready to recognise and read files.
+#[derive(Debug, Clone)]
+pub struct RigFormat {
+    /// Plugin name.
+    pub name: String,
+    /// One-line description.
+    pub description: String,
+    /// The manifest file, when loaded from one.
+    pub manifest_path: Option<PathBuf>,
+    detect: Detect,
+    /// How files are read.
+    pub reader: Reader,
+}
+
+impl RigFormat {
+    /// Builds a format from a parsed manifest; `manifest_path` locates exec programs.
+    pub fn from_manifest(
+        manifest: RigFormatManifest,
+        manifest_path: Option<&Path>,
+    ) -> Result<RigFormat, FormatError> {
+        let plugin_dir = manifest_path.and_then(Path::parent).map(Path::to_path_buf).unwrap_or_default();
+        let reader = match (manifest.layout, manifest.exec) {
+            (None, Some(spec)) => Reader::Exec { spec, plugin_dir },
+            (Some(layout), None) => Reader::Layout(layout),
+            _ => {
+                return Err(FormatError {
+                    name: manifest.name,
+                    message: "give exactly one of `layout` and `exec`".into(),
+                })
+            }
+        };
+        Ok(RigFormat {
+            name: manifest.name,
+            description: manifest.description,
+            manifest_path: manifest_path.map(Path::to_path_buf),
+            detect: manifest.detect,
+            reader,
+        })
+    }
+
+    /// The built-in native format.
+    pub fn native() -> RigFormat {
+        match Manifest::from_yaml("native.yaml", NATIVE_MANIFEST) {
+            Ok(Manifest::RigFormat(manifest)) => match RigFormat::from_manifest(manifest, None) {
+                Ok(format) => format,
+                Err(err) => panic!("the shipped native manifest does not compile: {err}"),
+            },
+            // The shipped manifest is checked by this crate's tests; only a broken build gets here.
+            other => panic!("the shipped native manifest does not load: {other:?}"),
+        }
+    }
+
+    /// Whether this format's signature matches the file's name and first lines.
+    pub fn matches(&self, file_name: &str, head: &str) -> bool {
+        if !self.detect.extensions.is_empty() {
+            let extension = Path::new(file_name).extension().and_then(|e| e.to_str()).unwrap_or("");
+            if !self.detect.extensions.iter().any(|e| e.eq_ignore_ascii_case(extension)) {
+                return false;
+            }
+        }
+        let lines: Vec<&str> = head.lines().take(self.detect.within_lines).collect();
+        self.detect.contains.iter().all(|needle| lines.iter().any(|line| line.contains(needle.as_str())))
+    }
+
+    /// True for exec converters.
+    pub fn is_exec(&self) -> bool {
+        matches!(self.reader, Reader::Exec { .. })
+    }
+}
+
+/// The rig formats in use, searched in order.
+#[derive(Debug, Clone, Default)]
+pub struct FormatSet {
+    formats: Vec<RigFormat>,
+}
+
+impl FormatSet {
+    /// A set of formats; names must be unique.
+    pub fn new(formats: Vec<RigFormat>) -> Result<FormatSet, String> {
+        for (i, format) in formats.iter().enumerate() {
+            if let Some(other) = formats[..i].iter().find(|f| f.name == format.name) {
+                let place = |f: &RigFormat| {
+                    f.manifest_path.as_ref().map(|p| p.display().to_string()).unwrap_or_else(|| "built in".into())
+                };
+                return Err(format!(
+                    "two rig formats are named `{}`: {} and {}",
+                    format.name,
+                    place(other),
+                    place(format)
+                ));
+            }
+        }
+        Ok(FormatSet { formats })
+    }
+
+    /// All formats.
+    pub fn formats(&self) -> &[RigFormat] {
+        &self.formats
+    }
+
+    /// The format with this name.
+    pub fn by_name(&self, name: &str) -> Option<&RigFormat> {
+        self.formats.iter().find(|f| f.name == name)
+    }
+
+    /// Recognises the file: exactly one format must claim it.
+    pub fn detect(&self, file: &str, bytes: &[u8]) -> Result<&RigFormat, IngestError> {
+        let head = head_text(bytes);
+        let claims: Vec<&RigFormat> = self.formats.iter().filter(|f| f.matches(file, &head)).collect();
+        match claims.as_slice() {
+            [one] => Ok(one),
+            [] => Err(IngestError::file(
+                RejectKind::Unrecognised,
+                file,
+                format!(
+                    "no rig-format plugin recognises this file (tried {}); add a plugin or name one with --rig-format",
+                    self.formats.iter().map(|f| f.name.as_str()).collect::<Vec<_>>().join(", ")
+                ),
+            )),
+            many => Err(IngestError::file(
+                RejectKind::Ambiguous,
+                file,
+                format!(
+                    "rig formats {} all recognise this file; choose one with --rig-format",
+                    many.iter().map(|f| format!("`{}`", f.name)).collect::<Vec<_>>().join(" and ")
+                ),
+            )),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn native_manifest_loads_and_detects_its_header() {
+        let native = RigFormat::native();
+        assert_eq!(native.name, NATIVE_NAME);
+        assert!(native.matches("a.csv", "# serial: 1\nangle_deg,torque_nmm\n0,0\n"));
+        assert!(!native.matches("a.csv", "Angle;Torque\n"));
+    }
+
+    #[test]
+    fn two_claims_are_ambiguous_and_named() {
+        let set = FormatSet::new(vec![RigFormat::native(), {
+            let mut twin = RigFormat::native();
+            twin.name = "twin".into();
+            twin
+        }])
+        .unwrap();
+        let err = set.detect("x.csv", b"angle_deg,torque_nmm\n1,2\n").unwrap_err();
+        assert_eq!(err.kind, RejectKind::Ambiguous);
+        assert!(err.message.contains("`native` and `twin`"), "{err}");
+        assert!(err.message.contains("--rig-format"));
+    }
+
+    #[test]
+    fn duplicate_names_are_refused() {
+        assert!(FormatSet::new(vec![RigFormat::native(), RigFormat::native()]).is_err());
+    }
+}

@@ -1,0 +1,345 @@
+//! The demo shift: an invented plant's lots, tested on its rigs, written as exports.
+//!
+//! A plan (YAML) names the rigs and their formats, and per lot the part, how many
+//! parts are tested, how much the wire diameter varies, and which parts carry a
+//! defect. Each part's rate follows its wire diameter (rate ∝ d⁴ at fixed coil
+//! geometry, EN 13906-3's rate formula), so a lot's rate spread is physical.
+
+use crate::spring::SpringModel;
+use crate::writer::{write_gantry_json, write_layout, WriteError, WriteStyle};
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, Normal, StandardNormal};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use twistlot_model::plugin::RigFormatManifest;
+use twistlot_model::yaml::{parse_document, DocumentError};
+use twistlot_model::PartSpec;
+
+/// Part-to-part spread of the free leg angle, degrees (one standard deviation).
+const FREE_ANGLE_SD_DEG: f64 = 0.4;
+
+/// A defect planted in one tested part.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case", tag = "kind")]
+pub enum Defect {
+    /// Coil-to-coil or leg-to-arbor friction several times the normal.
+    HighFriction,
+    /// The free leg angle is off by this many degrees (a bent leg).
+    FreeAngleOff {
+        /// Offset, degrees.
+        by_deg: f64,
+    },
+    /// The rig stopped short of the test angle (torque limit hit, part slipped).
+    StopsShort {
+        /// Angle reached, degrees.
+        at_deg: f64,
+    },
+    /// Coils bind before the test angle and the curve stiffens.
+    CoilBind {
+        /// Angle where binding starts, degrees.
+        from_deg: f64,
+    },
+    /// The rate is off by this share (wrong wire, wrong coil count).
+    RateOff {
+        /// Relative change, e.g. -0.12.
+        share: f64,
+    },
+}
+
+/// A file that is broken on purpose, so the demo shows rejections.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Breakage {
+    /// The last line is cut in the middle.
+    Truncated,
+    /// One torque cell holds text.
+    NonNumeric,
+    /// Nothing in the file.
+    Empty,
+}
+
+/// A planted defect, by position of the part in the lot's test order (from 1).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PlantedDefect {
+    /// Which tested part (1-based).
+    pub part_index: usize,
+    /// What is wrong with it.
+    #[serde(flatten)]
+    pub defect: Defect,
+}
+
+/// A broken file, by position of the part in the lot's test order (from 1).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PlantedBreakage {
+    /// Which tested part (1-based).
+    pub part_index: usize,
+    /// How the file is broken.
+    pub breakage: Breakage,
+}
+
+/// A rig of the demo plant.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DemoRig {
+    /// Rig name, written into the exports' metadata.
+    pub name: String,
+    /// Rig-format plugin its exports follow.
+    pub format: String,
+    /// Operator on this rig during the shift.
+    pub operator: String,
+}
+
+/// One lot of the demo shift.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DemoLot {
+    /// Lot identifier.
+    pub lot: String,
+    /// Part number; its spec is in the plan's parts folder.
+    pub part: String,
+    /// Parts in the lot.
+    pub quantity: u32,
+    /// Rig the lot is tested on.
+    pub rig: String,
+    /// Parts tested.
+    pub tests: usize,
+    /// Standard deviation of wire diameter, % of nominal.
+    pub wire_sd_pct: f64,
+    /// Mean free-angle offset of the lot, degrees (a setting drift).
+    #[serde(default)]
+    pub free_angle_shift_deg: f64,
+    /// When the lot must ship.
+    #[serde(default)]
+    pub ship_by: Option<String>,
+    /// Planted defects.
+    #[serde(default)]
+    pub defects: Vec<PlantedDefect>,
+    /// Broken files.
+    #[serde(default)]
+    pub broken: Vec<PlantedBreakage>,
+}
+
+/// The demo shift plan.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DemoPlan {
+    /// Seed for every random draw.
+    pub seed: u64,
+    /// Shift name.
+    pub shift: String,
+    /// Date the shift's tests are stamped with (`YYYY-MM-DD`).
+    pub date: String,
+    /// Rigs.
+    pub rigs: Vec<DemoRig>,
+    /// Lots.
+    pub lots: Vec<DemoLot>,
+}
+
+impl DemoPlan {
+    /// Parses a plan; `origin` names the file in errors.
+    pub fn from_yaml(origin: &str, text: &str) -> Result<DemoPlan, DocumentError> {
+        parse_document(origin, text)
+    }
+}
+
+/// One file the generator produced.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GeneratedFile {
+    /// Path relative to the shift folder.
+    pub relative_path: String,
+    /// Its bytes.
+    pub bytes: Vec<u8>,
+}
+
+/// Why the demo cannot be generated.
+#[derive(Debug, thiserror::Error)]
+pub enum DemoError {
+    /// The plan names a rig that is not in its rig list.
+    #[error("lot `{lot}` is tested on rig `{rig}`, which the plan does not list")]
+    UnknownRig {
+        /// Lot.
+        lot: String,
+        /// Rig.
+        rig: String,
+    },
+    /// The plan names a part without a spec.
+    #[error("lot `{lot}` is of part `{part}`, which has no spec in the parts folder")]
+    UnknownPart {
+        /// Lot.
+        lot: String,
+        /// Part.
+        part: String,
+    },
+    /// The rig's format is not among the manifests given.
+    #[error("rig `{rig}` writes format `{format}`, which is not a known rig format")]
+    UnknownFormat {
+        /// Rig.
+        rig: String,
+        /// Format.
+        format: String,
+    },
+    /// Writing a layout failed.
+    #[error(transparent)]
+    Write(#[from] WriteError),
+}
+
+/// File extension each demo format uses.
+fn extension(format: &str) -> &'static str {
+    match format {
+        "korvel-tab" => "txt",
+        "ostrel-semi" => "csv",
+        "pellam-fixed" => "dat",
+        "gantry-json" => "tqj",
+        _ => "csv",
+    }
+}
+
+/// Generates every export of the plan, plus the shift's `lots.yaml`.
+pub fn generate_shift(
+    plan: &DemoPlan,
+    specs: &BTreeMap<String, PartSpec>,
+    formats: &BTreeMap<String, RigFormatManifest>,
+) -> Result<Vec<GeneratedFile>, DemoError> {
+    let mut rng = ChaCha8Rng::seed_from_u64(plan.seed);
+    let mut files = Vec::new();
+    let mut lot_list = String::from("# Lots waiting for a decision at the end of the shift (written by the generator).\nlots:\n");
+    for lot in &plan.lots {
+        let rig = plan.rigs.iter().find(|r| r.name == lot.rig).ok_or_else(|| DemoError::UnknownRig {
+            lot: lot.lot.clone(),
+            rig: lot.rig.clone(),
+        })?;
+        let spec = specs
+            .get(&lot.part)
+            .ok_or_else(|| DemoError::UnknownPart { lot: lot.lot.clone(), part: lot.part.clone() })?;
+        lot_list.push_str(&format!(
+            "  - {{ lot: {}, part: {}, quantity: {}{} }}\n",
+            lot.lot,
+            lot.part,
+            lot.quantity,
+            lot.ship_by.as_ref().map(|s| format!(", ship_by: \"{s}\"")).unwrap_or_default()
+        ));
+        let nominal_rate = spec.characteristics.rate_nmm_per_deg.as_ref().map(|r| r.nominal).unwrap_or(1.0);
+        let nominal_free = spec.characteristics.free_angle_deg.as_ref().map(|f| f.nominal).unwrap_or(0.0);
+        let wire = Normal::new(1.0, lot.wire_sd_pct / 100.0).map_err(|_| DemoError::UnknownPart {
+            lot: lot.lot.clone(),
+            part: format!("{} (wire_sd_pct must be ≥ 0)", lot.part),
+        })?;
+        for index in 1..=lot.tests {
+            let serial = format!("{}-{:03}", lot.lot, index);
+            let diameter_ratio: f64 = wire.sample(&mut rng);
+            let mut model = SpringModel::new(
+                nominal_rate * diameter_ratio.powi(4),
+                nominal_free + lot.free_angle_shift_deg + FREE_ANGLE_SD_DEG * rng.sample::<f64, _>(StandardNormal),
+                spec.test.max_angle_deg,
+            );
+            model.pre_cycles = spec.test.pre_cycles;
+            model.points_per_stroke = 150;
+            model.dwell_points = 4 + rng.gen_range(0..6);
+            model.friction_share = 0.008 + rng.gen_range(0.0..0.006);
+            for planted in lot.defects.iter().filter(|d| d.part_index == index) {
+                match planted.defect {
+                    Defect::HighFriction => model.friction_share *= 8.0,
+                    Defect::FreeAngleOff { by_deg } => model.free_angle_deg += by_deg,
+                    Defect::StopsShort { at_deg } => model.max_angle_deg = at_deg,
+                    Defect::CoilBind { from_deg } => {
+                        model.bind_from_deg = Some(from_deg);
+                        model.bind_stiffening_nmm_per_deg2 = model.rate_nmm_per_deg * 0.08;
+                    }
+                    Defect::RateOff { share } => model.rate_nmm_per_deg *= 1.0 + share,
+                }
+            }
+            let curve = model.simulate(&mut rng);
+            let minute = index * 3;
+            let metadata = vec![
+                ("serial", serial.clone()),
+                ("part", lot.part.clone()),
+                ("lot", lot.lot.clone()),
+                ("rig", rig.name.clone()),
+                ("operator", rig.operator.clone()),
+                ("started", format!("{}T{:02}:{:02}", plan.date, 14 + minute / 60, minute % 60)),
+            ];
+            let mut bytes = if rig.format == "gantry-json" {
+                write_gantry_json(&metadata, &curve)
+            } else {
+                let manifest = formats.get(&rig.format).ok_or_else(|| DemoError::UnknownFormat {
+                    rig: rig.name.clone(),
+                    format: rig.format.clone(),
+                })?;
+                write_layout(manifest, &WriteStyle::for_format(&rig.format), &metadata, &curve)?
+            };
+            for broken in lot.broken.iter().filter(|b| b.part_index == index) {
+                bytes = break_file(bytes, broken.breakage);
+            }
+            files.push(GeneratedFile {
+                relative_path: format!("{}/{}.{}", rig.name.to_lowercase(), serial, extension(&rig.format)),
+                bytes,
+            });
+        }
+    }
+    files.push(GeneratedFile { relative_path: "lots.yaml".into(), bytes: lot_list.into_bytes() });
+    Ok(files)
+}
+
+fn break_file(mut bytes: Vec<u8>, breakage: Breakage) -> Vec<u8> {
+    match breakage {
+        Breakage::Empty => Vec::new(),
+        Breakage::Truncated => {
+            // Cut inside the last data line, just after its first delimiter or space.
+            while bytes.last().is_some_and(|b| *b == b'\n' || *b == b'\r') {
+                bytes.pop();
+            }
+            let line_start = bytes.iter().rposition(|b| *b == b'\n').map(|p| p + 1).unwrap_or(0);
+            let cut = bytes[line_start..]
+                .iter()
+                .position(|b| matches!(b, b'\t' | b';' | b',' | b' '))
+                .map(|p| line_start + p + 1)
+                .unwrap_or(bytes.len());
+            bytes.truncate(cut);
+            bytes
+        }
+        Breakage::NonNumeric => {
+            // Replace a digit in the middle of the file with a letter.
+            let mid = bytes.len() / 2;
+            if let Some(offset) = bytes[mid..].iter().position(u8::is_ascii_digit) {
+                bytes[mid + offset] = b'x';
+            }
+            bytes
+        }
+    }
+}
+
+/// The bench data set: `files` exports of `points` points each, rotating through
+/// the given declarative layouts, with plain springs of varied rate.
+pub fn generate_bench(
+    seed: u64,
+    files: usize,
+    points: usize,
+    formats: &[RigFormatManifest],
+) -> Result<Vec<GeneratedFile>, DemoError> {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let mut out = Vec::with_capacity(files);
+    for index in 0..files {
+        let manifest = &formats[index % formats.len().max(1)];
+        let mut model = SpringModel::new(rng.gen_range(1.0..30.0), rng.gen_range(-2.0..4.0), 90.0);
+        model.pre_cycles = 1;
+        model.dwell_points = 0;
+        model.points_per_stroke = points / 4;
+        let curve = model.simulate(&mut rng);
+        let serial = format!("B{index:05}");
+        let metadata = vec![
+            ("serial", serial.clone()),
+            ("part", "BENCH-1".to_string()),
+            ("lot", format!("BL{}", index / 100)),
+            ("rig", manifest.name.clone()),
+        ];
+        let bytes = write_layout(manifest, &WriteStyle::for_format(&manifest.name), &metadata, &curve)?;
+        out.push(GeneratedFile {
+            relative_path: format!("{}/{serial}.{}", manifest.name, extension(&manifest.name)),
+            bytes,
+        });
+    }
+    Ok(out)
+}

@@ -14,7 +14,7 @@ pub const NATIVE_NAME: &str = "native";
 #[derive(Debug, Clone)]
 pub enum Reader {
     /// A declarative layout read in-process.
-    Layout(Layout),
+    Layout(Box<Layout>),
     /// A converter program that prints the native format.
     Exec {
         /// How to run it.
@@ -47,7 +47,7 @@ impl RigFormat {
         let plugin_dir = manifest_path.and_then(Path::parent).map(Path::to_path_buf).unwrap_or_default();
         let reader = match (manifest.layout, manifest.exec) {
             (None, Some(spec)) => Reader::Exec { spec, plugin_dir },
-            (Some(layout), None) => Reader::Layout(layout),
+            (Some(layout), None) => Reader::Layout(Box::new(layout)),
             _ => {
                 return Err(FormatError {
                     name: manifest.name,
@@ -67,7 +67,7 @@ impl RigFormat {
     /// The built-in native format.
     pub fn native() -> RigFormat {
         match Manifest::from_yaml("native.yaml", NATIVE_MANIFEST) {
-            Ok(Manifest::RigFormat(manifest)) => match RigFormat::from_manifest(manifest, None) {
+            Ok(Manifest::RigFormat(manifest)) => match RigFormat::from_manifest(*manifest, None) {
                 Ok(format) => format,
                 Err(err) => panic!("the shipped native manifest does not compile: {err}"),
             },

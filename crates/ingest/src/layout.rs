@@ -318,13 +318,14 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
             Delimiter::Whitespace => cells.extend(line.split_ascii_whitespace().take(last_needed + 1)),
         }
         if cells.len() <= last_needed {
-            let missing = wanted.iter().find(|w| w.0 >= cells.len()).map(|w| w.2).unwrap_or_default();
+            let (missing_index, missing) =
+                wanted.iter().find(|w| w.0 >= cells.len()).map(|w| (w.0, w.2)).unwrap_or((last_needed, ""));
             let what = if terminated { "the row" } else { "the last line is cut off: it" };
             return Err(cx.error(
                 RejectKind::Truncated,
                 Some(number),
                 Some(missing),
-                format!("{what} has {} field(s) but the `{missing}` column is field {}", cells.len(), last_needed + 1),
+                format!("{what} has {} field(s) but the `{missing}` column is field {}", cells.len(), missing_index + 1),
             ));
         }
         for &(index, role, label) in &wanted {

@@ -16,7 +16,7 @@ fn manifest(relative: &str) -> (RigFormatManifest, PathBuf) {
     let path = plugins_dir().join(relative);
     let text = std::fs::read_to_string(&path).unwrap();
     match Manifest::from_yaml(relative, &text).unwrap() {
-        Manifest::RigFormat(m) => (m, path),
+        Manifest::RigFormat(m) => (*m, path),
         other => panic!("{relative} is not a rig format: {other:?}"),
     }
 }
@@ -152,7 +152,7 @@ fn a_slow_converter_is_stopped_at_its_limit() {
     let manifest_path = dir.path().join("sleepy.yaml");
     std::fs::write(&manifest_path, manifest_text).unwrap();
     let Manifest::RigFormat(m) = Manifest::from_yaml("sleepy.yaml", manifest_text).unwrap() else { panic!() };
-    let formats = FormatSet::new(vec![RigFormat::from_manifest(m, Some(&manifest_path)).unwrap()]).unwrap();
+    let formats = FormatSet::new(vec![RigFormat::from_manifest(*m, Some(&manifest_path)).unwrap()]).unwrap();
     let started = std::time::Instant::now();
     let err = read(&formats, "a.zz", b"whatever\n").unwrap_err();
     assert_eq!(err.kind, RejectKind::Converter);

@@ -392,7 +392,7 @@ pub struct SinkManifest {
 #[derive(Debug, Clone, PartialEq)]
 pub enum Manifest {
     /// A rig format.
-    RigFormat(RigFormatManifest),
+    RigFormat(Box<RigFormatManifest>),
     /// A check.
     Check(CheckManifest),
     /// A sampling scheme: header only; the sampling crate reads the body.
@@ -429,7 +429,7 @@ impl Manifest {
             PluginKind::RigFormat => {
                 let m: RigFormatManifest = parse_document(origin, text)?;
                 validate_rig_format(origin, text, &m)?;
-                Manifest::RigFormat(m)
+                Manifest::RigFormat(Box::new(m))
             }
             PluginKind::Check => Manifest::Check(parse_document(origin, text)?),
             PluginKind::DispatchRule => Manifest::DispatchRule(parse_document(origin, text)?),
@@ -618,7 +618,7 @@ layout:
         let Manifest::RigFormat(m) = Manifest::from_yaml("native.yaml", NATIVE).unwrap() else {
             panic!("not a rig format");
         };
-        let layout = m.layout.unwrap();
+        let layout = m.layout.as_ref().unwrap();
         assert_eq!(layout.delimiter, Delimiter::Byte(b','));
         assert_eq!(layout.columns.angle.sign, 1.0);
         assert_eq!(m.detect.within_lines, 40);

@@ -388,7 +388,7 @@ pub enum ClassPlan {
         /// Acceptable quality limit, percent defective.
         aql_pct: f64,
     },
-    /// Sample from the tables (at the scheme's smallest AQL) and accept on zero defectives.
+    /// Sample the code letter's normal sample size and accept only on zero defectives (Ac 0, Re 1).
     ZeroAcceptance,
     /// Not sampled for this class.
     None,

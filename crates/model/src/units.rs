@@ -268,6 +268,7 @@ mod tests {
     }
 
     #[test]
+    #[allow(clippy::approx_constant)] // the printed table value is the point of the check
     fn turn_is_two_pi_radians() {
         // Source: NIST SP 811 (2008) Appendix B.9, revolution (r) to radian: 6.283 185 E+00
         let rad_per_turn = AngleUnit::Turn.deg_per_unit() / AngleUnit::Radian.deg_per_unit();

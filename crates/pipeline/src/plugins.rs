@@ -70,7 +70,7 @@ impl PluginCatalog {
         let mut formats = Vec::new();
         for (path, manifest) in self.of_kind(PluginKind::RigFormat) {
             if let Manifest::RigFormat(m) = manifest {
-                formats.push(RigFormat::from_manifest(m.clone(), Some(path)).map_err(|e| e.to_string())?);
+                formats.push(RigFormat::from_manifest((**m).clone(), Some(path)).map_err(|e| e.to_string())?);
             }
         }
         if !formats.iter().any(|f| f.name == twistlot_ingest::format::NATIVE_NAME) {

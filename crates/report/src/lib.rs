@@ -1,1 +1,59 @@
-//! placeholder
+//! Turns a shift's results into the documents people read: lot reports, the shift
+//! summary and the per-test CSV.
+//!
+//! For: drawing the report charts as inline SVG ([`charts`]), holding the plain-data
+//! contexts the pipeline fills ([`context`]), and rendering them through minijinja
+//! templates that a plant may override file by file ([`render`]).
+//!
+//! Not for: computing anything statistical, judging parts or lots, or reading rig
+//! files. Every number shown arrives ready-made in a context struct; this crate only
+//! formats it. It depends on nothing but `twistlot-model`, so the layers that compute
+//! results never have to know how they are shown.
+//!
+//! Main types: [`Renderer`], [`LotReport`], [`ShiftSummary`], [`TestsCsv`],
+//! [`SvgMarkup`], [`ReportError`]; chart functions [`rate_histogram_svg`],
+//! [`curves_svg`], [`oc_curve_svg`].
+
+pub mod charts;
+pub mod context;
+pub mod render;
+
+pub use charts::{curves_svg, oc_curve_svg, rate_histogram_svg, CurveLine, SvgMarkup, ToleranceWindow};
+pub use context::{
+    default_cautions, CharacteristicStats, Charts, Disposition, FlaggedPart, LotLine, LotReport, PlanView,
+    RejectedFile, ShiftSummary, TestRow, TestsCsv,
+};
+pub use render::{csv_field, shipped_templates_dir, Renderer};
+
+use std::path::PathBuf;
+
+/// Why a chart or a document could not be produced.
+#[derive(Debug, thiserror::Error)]
+pub enum ReportError {
+    /// A template folder is missing or unreadable.
+    #[error("template folder {}: {source}", path.display())]
+    TemplateDir {
+        /// The folder that was asked for.
+        path: PathBuf,
+        /// What the file system said.
+        source: std::io::Error,
+    },
+    /// A template failed to load, parse or render.
+    #[error("template `{name}`{}: {detail}", line.map(|l| format!(", line {l}")).unwrap_or_default())]
+    Template {
+        /// The template the error is in (an included template when the fault is there).
+        name: String,
+        /// The line in that template, when minijinja knows it.
+        line: Option<usize>,
+        /// What went wrong, with the chain of causes.
+        detail: String,
+    },
+    /// The plotting library refused to draw a chart.
+    #[error("chart `{chart}`: {detail}")]
+    Chart {
+        /// Which chart.
+        chart: &'static str,
+        /// What the plotting library said.
+        detail: String,
+    },
+}

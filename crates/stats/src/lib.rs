@@ -1,1 +1,31 @@
-//! placeholder
+//! Per-test curve metrics, verdicts, check plugins and lot capability for twistlot.
+//!
+//! For: turning one test's torque-versus-angle curve ([`twistlot_model::CurveData`]) into
+//! the numbers a drawing specifies ([`curve_metrics`] → [`CurveMetrics`]), judging those
+//! against the part spec and the plant's check plugins ([`judge()`] → [`Judgement`]), and
+//! summarising a lot's values of one characteristic ([`capability()`] → [`Capability`]).
+//! The methods are the published ones named in DESIGN.md §6; [`linear_fit`] is checked
+//! against the NIST StRD certified values.
+//!
+//! Not for: reading files or frames (the ingest crate turns exports into `CurveData`),
+//! deciding lots under sampling plans (the sampling crate), or printing. Everything here
+//! is a pure function of plain slices and model types.
+//!
+//! Main types: [`MetricOptions`], [`CurveMetrics`], [`MetricsError`], [`LinearFit`],
+//! [`CheckSet`], [`CheckError`], [`Judgement`], [`Capability`], [`CapabilityMethod`],
+//! [`Normality`].
+
+#![warn(missing_docs)]
+
+pub mod capability;
+pub mod checks;
+pub mod fit;
+pub mod judge;
+pub mod metrics;
+mod text;
+
+pub use capability::{anderson_darling, capability, Capability, CapabilityMethod, Normality};
+pub use checks::{CheckError, CheckSet};
+pub use fit::{linear_fit, LinearFit};
+pub use judge::{judge, judge_with, Judgement};
+pub use metrics::{angle_key, curve_metrics, CurveMetrics, MetricOptions, MetricsError};

@@ -61,7 +61,6 @@ pub enum Breakage {
 
 /// A planted defect, by position of the part in the lot's test order (from 1).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields)]
 pub struct PlantedDefect {
     /// Which tested part (1-based).
     pub part_index: usize,

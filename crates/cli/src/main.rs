@@ -14,7 +14,12 @@ use std::process::ExitCode;
 use twistlot_ingest::{expand_inputs, flag_duplicate_serials, ingest_each, FileStatus, FileSummary};
 use twistlot_model::plugin::RigFormatManifest;
 use twistlot_model::{Manifest, PartSpec};
-use twistlot_pipeline::{shipped_plugins_dir, PluginCatalog};
+use twistlot_pipeline::{
+    check_manifests, evaluate_files, shipped_plugins_dir, EvaluateOptions, Evaluated, Plant, PluginCatalog,
+    SpecLibrary, SpecSource,
+};
+use twistlot_sampling::{design_attribute, design_variables, InspectionLevel, LimitKind, Severity};
+use twistlot_stats::CheckSet;
 
 /// Exit status when the command ran but some input files were rejected.
 const EXIT_SOME_REJECTED: u8 = 3;
@@ -39,6 +44,12 @@ enum Command {
     /// Read rig exports (files or folders) into canonical curves and account for every file.
     #[command(after_help = EXIT_HELP)]
     Ingest(IngestArgs),
+    /// Measure each tested part's curve and judge it against its part spec.
+    #[command(after_help = EXIT_HELP)]
+    Evaluate(EvaluateArgs),
+    /// Look up attribute sampling plans, or design plans from producer's and consumer's risks.
+    #[command(args_conflicts_with_subcommands = true)]
+    Sampling(SamplingArgs),
     /// List and validate the plugins found in the plugin folders.
     #[command(after_help = EXIT_HELP)]
     Plugins(PluginArgs),
@@ -82,6 +93,97 @@ struct IngestArgs {
     /// How to print the result.
     #[arg(long, value_enum, default_value = "table")]
     format: OutputFormat,
+}
+
+#[derive(Args)]
+struct EvaluateArgs {
+    /// Export files or folders (searched recursively).
+    #[arg(required = true, value_name = "PATH")]
+    paths: Vec<PathBuf>,
+    /// Judge every export against this part spec.
+    #[arg(long, value_name = "FILE")]
+    spec: Option<PathBuf>,
+    /// Plant config: specs are found by each export's part number in its parts folder.
+    #[arg(long, value_name = "FILE")]
+    plant: Option<PathBuf>,
+    /// Evaluation window as fractions of the tested deflection, e.g. `0.2:0.8` (`0:1` = whole loading stroke).
+    #[arg(long, value_name = "LO:HI", value_parser = parse_window)]
+    window: Option<[f64; 2]>,
+    /// Read every file with this rig format instead of recognising it.
+    #[arg(long, value_name = "NAME")]
+    rig_format: Option<String>,
+    #[command(flatten)]
+    plugins: PluginFolders,
+    /// How to print the result.
+    #[arg(long, value_enum, default_value = "table")]
+    format: OutputFormat,
+}
+
+fn parse_window(text: &str) -> Result<[f64; 2], String> {
+    let (lo, hi) = text.split_once(':').ok_or_else(|| format!("`{text}` is not LO:HI"))?;
+    let lo: f64 = lo.trim().parse().map_err(|_| format!("`{lo}` is not a number"))?;
+    let hi: f64 = hi.trim().parse().map_err(|_| format!("`{hi}` is not a number"))?;
+    if !(0.0..=1.0).contains(&lo) || !(0.0..=1.0).contains(&hi) || lo >= hi {
+        return Err(format!("the window {lo}:{hi} must satisfy 0 ≤ LO < HI ≤ 1"));
+    }
+    Ok([lo, hi])
+}
+
+#[derive(Args)]
+struct SamplingArgs {
+    #[command(subcommand)]
+    design: Option<SamplingCommand>,
+    /// Lot size.
+    #[arg(long)]
+    lot_size: Option<u64>,
+    /// AQL, percent defective (a value of the scheme's AQL series).
+    #[arg(long)]
+    aql: Option<f64>,
+    /// Inspection level: I, II, III, S-1 … S-4.
+    #[arg(long, default_value = "II")]
+    level: String,
+    /// Severity: normal, tightened, reduced.
+    #[arg(long, default_value = "normal")]
+    severity: String,
+    /// Sampling-scheme plugin to use.
+    #[arg(long, default_value = "mil-std-105e")]
+    scheme: String,
+    #[command(flatten)]
+    plugins: PluginFolders,
+    /// How to print the result.
+    #[arg(long, value_enum, default_value = "table")]
+    format: OutputFormat,
+}
+
+#[derive(Subcommand)]
+enum SamplingCommand {
+    /// Design the smallest plan that meets an AQL at risk α and an LTPD at risk β.
+    Design {
+        /// AQL, percent defective.
+        #[arg(long)]
+        aql: f64,
+        /// Producer's risk at the AQL.
+        #[arg(long, default_value_t = 0.05)]
+        alpha: f64,
+        /// LTPD, percent defective.
+        #[arg(long)]
+        ltpd: f64,
+        /// Consumer's risk at the LTPD.
+        #[arg(long, default_value_t = 0.10)]
+        beta: f64,
+        /// A variables (k-method) plan instead of an attribute plan.
+        #[arg(long)]
+        variables: bool,
+        /// For a variables plan: the process σ is known.
+        #[arg(long, requires = "variables")]
+        sigma_known: bool,
+        /// For a variables plan: two-sided limits.
+        #[arg(long, requires = "variables")]
+        double_limit: bool,
+        /// How to print the result.
+        #[arg(long, value_enum, default_value = "table")]
+        format: OutputFormat,
+    },
 }
 
 #[derive(Args)]
@@ -132,6 +234,8 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Ingest(args) => ingest(args),
+        Command::Evaluate(args) => evaluate(args),
+        Command::Sampling(args) => sampling(args),
         Command::Plugins(args) => plugins(args),
         Command::Synth(command) => synth(command),
     };
@@ -177,7 +281,8 @@ fn ingest(args: IngestArgs) -> Result<ExitCode> {
     match args.format {
         OutputFormat::Json => println!("{}", serde_json::to_string_pretty(&summaries)?),
         OutputFormat::Csv | OutputFormat::Table => {
-            let mut table = Table::new(&["file", "status", "rig_format", "points", "serial", "part", "lot", "reason"]);
+            let mut table =
+                Table::new(&["file", "status", "rig_format", "points", "serial", "part", "lot", "reason"]);
             for s in &summaries {
                 let mut reason = s.reason.clone();
                 for warning in &s.warnings {
@@ -204,7 +309,11 @@ fn ingest(args: IngestArgs) -> Result<ExitCode> {
             }
             print_rows(&table, args.format == OutputFormat::Csv);
             if args.format == OutputFormat::Table {
-                println!("\n{} files: {} accepted, {rejected} rejected.", summaries.len(), summaries.len() - rejected);
+                println!(
+                    "\n{} files: {} accepted, {rejected} rejected.",
+                    summaries.len(),
+                    summaries.len() - rejected
+                );
             }
         }
     }
@@ -214,6 +323,208 @@ fn ingest(args: IngestArgs) -> Result<ExitCode> {
         }
     }
     Ok(if rejected > 0 { ExitCode::from(EXIT_SOME_REJECTED) } else { ExitCode::SUCCESS })
+}
+
+fn evaluate(args: EvaluateArgs) -> Result<ExitCode> {
+    let plant = args.plant.as_deref().map(Plant::load).transpose()?;
+    let mut folders = args.plugins.folders();
+    if let Some(plant) = &plant {
+        folders.extend(plant.plugin_dirs.iter().cloned());
+    }
+    let catalog = PluginCatalog::discover(&folders);
+    for err in catalog.errors() {
+        eprintln!("warning: plugin not loaded: {err}");
+    }
+    let formats = catalog.rig_formats().map_err(anyhow::Error::msg)?;
+    let checks = CheckSet::new(&check_manifests(&catalog))?;
+    let specs = match (&args.spec, &plant) {
+        (Some(spec), _) => SpecSource::Fixed(SpecLibrary::single(spec)?),
+        (None, Some(plant)) => SpecSource::ByPart(SpecLibrary::load_dir(&plant.parts_dir)?),
+        (None, None) => SpecSource::None,
+    };
+    let (files, missing) = expand_inputs(&args.paths);
+    let options = EvaluateOptions { window: args.window, rig_format: args.rig_format.clone() };
+    let results = evaluate_files(&files, &formats, &specs, &checks, &options);
+    let mut tests = Vec::new();
+    let mut rejected: Vec<twistlot_ingest::IngestError> = missing;
+    for result in results {
+        match result {
+            Evaluated::Test(test) => tests.push(*test),
+            Evaluated::Rejected(err) => rejected.push(err),
+        }
+    }
+    match args.format {
+        OutputFormat::Json => println!("{}", serde_json::to_string_pretty(&tests)?),
+        _ => {
+            let fmt = |v: Option<f64>, places: usize| {
+                v.map(|v| format!("{v:.places$}")).unwrap_or_else(|| "—".into())
+            };
+            let mut table = Table::new(&[
+                "serial",
+                "part",
+                "lot",
+                "rate_nmm_per_deg",
+                "r2",
+                "free_angle_deg",
+                "max_torque_nmm",
+                "verdict",
+                "findings",
+            ]);
+            for t in &tests {
+                let notes: Vec<String> = t
+                    .findings
+                    .iter()
+                    .filter(|f| f.verdict != twistlot_model::Verdict::Pass)
+                    .map(|f| format!("{} {}: {}", f.class, f.verdict, f.message))
+                    .collect();
+                table.row(vec![
+                    t.serial.clone().unwrap_or_else(|| t.file.clone()),
+                    t.part.clone().unwrap_or_default(),
+                    t.lot.clone().unwrap_or_default(),
+                    fmt(t.metrics.rate_nmm_per_deg, 4),
+                    fmt(t.metrics.rate_r2, 5),
+                    fmt(t.metrics.free_angle_deg, 2),
+                    format!("{:.1}", t.metrics.max_torque_nmm),
+                    t.verdict.map(|v| v.to_string()).unwrap_or_else(|| "no spec".into()),
+                    notes.join("; "),
+                ]);
+            }
+            print_rows(&table, args.format == OutputFormat::Csv);
+            if args.format == OutputFormat::Table {
+                let count = |v| tests.iter().filter(|t| t.verdict == Some(v)).count();
+                println!(
+                    "\n{} tests: {} pass, {} fail, {} invalid; {} files rejected.",
+                    tests.len(),
+                    count(twistlot_model::Verdict::Pass),
+                    count(twistlot_model::Verdict::Fail),
+                    count(twistlot_model::Verdict::Invalid),
+                    rejected.len()
+                );
+            }
+        }
+    }
+    for err in &rejected {
+        eprintln!("rejected: {err}");
+    }
+    if !tests.is_empty() {
+        eprintln!("{CAUTION}");
+    }
+    Ok(if rejected.is_empty() { ExitCode::SUCCESS } else { ExitCode::from(EXIT_SOME_REJECTED) })
+}
+
+fn sampling(args: SamplingArgs) -> Result<ExitCode> {
+    match args.design {
+        Some(SamplingCommand::Design {
+            aql,
+            alpha,
+            ltpd,
+            beta,
+            variables,
+            sigma_known,
+            double_limit,
+            format,
+        }) => {
+            #[derive(serde::Serialize)]
+            struct Designed {
+                kind: &'static str,
+                sample_size: u64,
+                #[serde(skip_serializing_if = "Option::is_none")]
+                accept: Option<u64>,
+                #[serde(skip_serializing_if = "Option::is_none")]
+                k: Option<f64>,
+                #[serde(skip_serializing_if = "Option::is_none")]
+                sigma_known: Option<bool>,
+                oc: Vec<twistlot_sampling::OcPoint>,
+            }
+            let designed = if variables {
+                let limits = if double_limit { LimitKind::Double } else { LimitKind::Single };
+                let plan = design_variables(aql, alpha, ltpd, beta, sigma_known, limits)?;
+                Designed {
+                    kind: "variables",
+                    sample_size: plan.sample_size,
+                    accept: None,
+                    k: Some(plan.k),
+                    sigma_known: Some(sigma_known),
+                    oc: plan.oc,
+                }
+            } else {
+                let plan = design_attribute(aql, alpha, ltpd, beta)?;
+                Designed {
+                    kind: "attribute",
+                    sample_size: plan.sample_size,
+                    accept: Some(plan.accept),
+                    k: None,
+                    sigma_known: None,
+                    oc: plan.oc,
+                }
+            };
+            if format == OutputFormat::Json {
+                println!("{}", serde_json::to_string_pretty(&designed)?);
+            } else {
+                match (designed.accept, designed.k) {
+                    (Some(c), _) => println!(
+                        "attribute plan: sample {} parts, accept the lot with at most {c} defective",
+                        designed.sample_size
+                    ),
+                    (_, Some(k)) => println!(
+                        "variables plan (σ {}): sample {} parts, accept when (limit − mean)/{} ≥ k = {k:.4}",
+                        if sigma_known { "known" } else { "unknown" },
+                        designed.sample_size,
+                        if sigma_known { "σ" } else { "s" }
+                    ),
+                    _ => {}
+                }
+                let mut table = Table::new(&["defective_pct", "p_accept"]);
+                for point in designed.oc.iter().step_by(5) {
+                    table.row(vec![format!("{:.2}", point.defective_pct), format!("{:.4}", point.p_accept)]);
+                }
+                print_rows(&table, format == OutputFormat::Csv);
+            }
+        }
+        None => {
+            let (Some(lot_size), Some(aql)) = (args.lot_size, args.aql) else {
+                bail!("give --lot-size and --aql (or use `twistlot sampling design`)");
+            };
+            let catalog = load_catalog(&args.plugins)?;
+            let scheme = load_scheme(&catalog, &args.scheme)?;
+            let level: InspectionLevel = args.level.parse().map_err(anyhow::Error::msg)?;
+            let severity: Severity = args.severity.parse().map_err(anyhow::Error::msg)?;
+            let plan = scheme.plan(lot_size, level, aql, severity)?;
+            if args.format == OutputFormat::Json {
+                println!("{}", serde_json::to_string_pretty(&plan)?);
+            } else {
+                let mut table = Table::new(&[
+                    "code_letter",
+                    "sample_size",
+                    "accept",
+                    "reject",
+                    "severity",
+                    "hundred_percent",
+                ]);
+                table.row(vec![
+                    plan.code_letter.clone(),
+                    plan.sample_size.to_string(),
+                    plan.accept.to_string(),
+                    plan.reject.to_string(),
+                    plan.severity.as_str().to_string(),
+                    plan.hundred_percent.to_string(),
+                ]);
+                print_rows(&table, args.format == OutputFormat::Csv);
+            }
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn load_scheme(catalog: &PluginCatalog, name: &str) -> Result<twistlot_sampling::Scheme> {
+    for (path, manifest) in catalog.of_kind(twistlot_model::PluginKind::SamplingScheme) {
+        if manifest.header().name == name {
+            let text =
+                std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
+            return Ok(twistlot_sampling::Scheme::from_yaml(&path.display().to_string(), &text)?);
+        }
+    }
+    bail!("there is no sampling-scheme plugin named `{name}`")
 }
 
 fn plugins(args: PluginArgs) -> Result<ExitCode> {
@@ -306,7 +617,8 @@ fn synth(command: SynthCommand) -> Result<ExitCode> {
     match command {
         SynthCommand::Shift { plan, parts, out, plugins } => {
             let catalog = load_catalog(&plugins)?;
-            let text = std::fs::read_to_string(&plan).with_context(|| format!("cannot read {}", plan.display()))?;
+            let text =
+                std::fs::read_to_string(&plan).with_context(|| format!("cannot read {}", plan.display()))?;
             let plan = twistlot_synth::DemoPlan::from_yaml(&plan.display().to_string(), &text)?;
             let mut specs = BTreeMap::new();
             let mut entries: Vec<PathBuf> = std::fs::read_dir(&parts)
@@ -316,7 +628,8 @@ fn synth(command: SynthCommand) -> Result<ExitCode> {
                 .collect();
             entries.sort();
             for path in entries {
-                let text = std::fs::read_to_string(&path).with_context(|| format!("cannot read {}", path.display()))?;
+                let text = std::fs::read_to_string(&path)
+                    .with_context(|| format!("cannot read {}", path.display()))?;
                 let spec = PartSpec::from_yaml(&path.display().to_string(), &text)?;
                 specs.insert(spec.part.clone(), spec);
             }

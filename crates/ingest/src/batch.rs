@@ -46,8 +46,9 @@ pub fn expand_inputs(inputs: &[PathBuf]) -> (Vec<PathBuf>, Vec<IngestError>) {
 }
 
 fn walk(dir: &Path, files: &mut Vec<PathBuf>) -> Result<(), IngestError> {
-    let entries = std::fs::read_dir(dir)
-        .map_err(|e| IngestError::file(RejectKind::Io, &dir.display().to_string(), format!("cannot list the folder: {e}")))?;
+    let entries = std::fs::read_dir(dir).map_err(|e| {
+        IngestError::file(RejectKind::Io, &dir.display().to_string(), format!("cannot list the folder: {e}"))
+    })?;
     let mut paths: Vec<PathBuf> = entries.filter_map(|e| e.ok().map(|e| e.path())).collect();
     paths.sort();
     for path in paths {

@@ -56,7 +56,14 @@ pub struct IngestError {
 impl IngestError {
     /// A problem with the whole file.
     pub fn file(kind: RejectKind, file: &str, message: impl Into<String>) -> Self {
-        IngestError { kind, file: file.to_string(), line: None, column: None, rig_format: None, message: message.into() }
+        IngestError {
+            kind,
+            file: file.to_string(),
+            line: None,
+            column: None,
+            rig_format: None,
+            message: message.into(),
+        }
     }
 
     /// Sets the rig format the file was being read as.

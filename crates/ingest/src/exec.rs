@@ -20,7 +20,8 @@ pub fn run_converter(
     plugin_dir: &Path,
 ) -> Result<Vec<u8>, IngestError> {
     let fail = |message: String| IngestError::file(RejectKind::Converter, file, message).with_format(plugin);
-    let absolute = std::path::absolute(path).map_err(|e| fail(format!("cannot resolve the file's path: {e}")))?;
+    let absolute =
+        std::path::absolute(path).map_err(|e| fail(format!("cannot resolve the file's path: {e}")))?;
     let absolute_text = absolute.to_string_lossy().to_string();
     let argv: Vec<String> = spec.command.iter().map(|arg| arg.replace("{file}", &absolute_text)).collect();
     let Some((program, args)) = argv.split_first() else {
@@ -68,12 +69,18 @@ pub fn run_converter(
         buf
     });
     let limit = Duration::from_secs_f64(spec.timeout_s);
-    let status = match child.wait_timeout(limit).map_err(|e| fail(format!("waiting for the converter failed: {e}")))? {
+    let status = match child
+        .wait_timeout(limit)
+        .map_err(|e| fail(format!("waiting for the converter failed: {e}")))?
+    {
         Some(status) => status,
         None => {
             let _ = child.kill();
             let _ = child.wait();
-            return Err(fail(format!("the converter did not finish within its limit of {} s and was stopped", spec.timeout_s)));
+            return Err(fail(format!(
+                "the converter did not finish within its limit of {} s and was stopped",
+                spec.timeout_s
+            )));
         }
     };
     let out = out_reader.join().unwrap_or_default();

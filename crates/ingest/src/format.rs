@@ -106,7 +106,10 @@ impl FormatSet {
         for (i, format) in formats.iter().enumerate() {
             if let Some(other) = formats[..i].iter().find(|f| f.name == format.name) {
                 let place = |f: &RigFormat| {
-                    f.manifest_path.as_ref().map(|p| p.display().to_string()).unwrap_or_else(|| "built in".into())
+                    f.manifest_path
+                        .as_ref()
+                        .map(|p| p.display().to_string())
+                        .unwrap_or_else(|| "built in".into())
                 };
                 return Err(format!(
                     "two rig formats are named `{}`: {} and {}",

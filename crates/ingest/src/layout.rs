@@ -85,7 +85,13 @@ struct Context<'a> {
 }
 
 impl Context<'_> {
-    fn error(&self, kind: RejectKind, line: Option<usize>, column: Option<&str>, message: String) -> IngestError {
+    fn error(
+        &self,
+        kind: RejectKind,
+        line: Option<usize>,
+        column: Option<&str>,
+        message: String,
+    ) -> IngestError {
         IngestError {
             kind,
             file: self.file.to_string(),
@@ -96,7 +102,12 @@ impl Context<'_> {
         }
     }
 
-    fn pick(&self, pick: &ColumnPick, header: Option<&(Vec<&str>, usize)>, role: &str) -> Result<Field, IngestError> {
+    fn pick(
+        &self,
+        pick: &ColumnPick,
+        header: Option<&(Vec<&str>, usize)>,
+        role: &str,
+    ) -> Result<Field, IngestError> {
         if let Some(position) = pick.position {
             let label = header
                 .and_then(|(cells, _)| cells.get(position - 1).map(|c| c.to_string()))
@@ -105,9 +116,17 @@ impl Context<'_> {
         }
         let name = pick.name.as_deref().unwrap_or_default();
         let Some((cells, line)) = header else {
-            return Err(self.error(RejectKind::MissingColumn, None, Some(name), "the file has no header row".into()));
+            return Err(self.error(
+                RejectKind::MissingColumn,
+                None,
+                Some(name),
+                "the file has no header row".into(),
+            ));
         };
-        match cells.iter().position(|cell| bare_name(cell).eq_ignore_ascii_case(name) || cell.eq_ignore_ascii_case(name)) {
+        match cells
+            .iter()
+            .position(|cell| bare_name(cell).eq_ignore_ascii_case(name) || cell.eq_ignore_ascii_case(name))
+        {
             Some(index) => Ok(Field { index, label: cells[index].to_string() }),
             None => Err(self.error(
                 RejectKind::MissingColumn,
@@ -133,24 +152,30 @@ impl Context<'_> {
                     RejectKind::UnknownUnit,
                     header_line,
                     Some(&field.label),
-                    "the header cell carries no unit in brackets, and the layout reads the unit from there".into(),
+                    "the header cell carries no unit in brackets, and the layout reads the unit from there"
+                        .into(),
                 )),
             },
-            UnitSource::Metadata(label) => match metadata.iter().find(|(l, _, _)| l.eq_ignore_ascii_case(label)) {
-                Some((_, value, line)) => Ok((value.clone(), Some(*line))),
-                None => Err(self.error(
-                    RejectKind::UnknownUnit,
-                    None,
-                    Some(&field.label),
-                    format!("the metadata line `{label}` that gives the unit is missing"),
-                )),
-            },
+            UnitSource::Metadata(label) => {
+                match metadata.iter().find(|(l, _, _)| l.eq_ignore_ascii_case(label)) {
+                    Some((_, value, line)) => Ok((value.clone(), Some(*line))),
+                    None => Err(self.error(
+                        RejectKind::UnknownUnit,
+                        None,
+                        Some(&field.label),
+                        format!("the metadata line `{label}` that gives the unit is missing"),
+                    )),
+                }
+            }
         }
     }
 }
 
 /// The line put back after the preamble, else the next one.
-fn take_line<'a>(pending: &mut Option<(&'a str, usize, bool)>, lines: &mut Lines<'a>) -> Option<(&'a str, usize, bool)> {
+fn take_line<'a>(
+    pending: &mut Option<(&'a str, usize, bool)>,
+    lines: &mut Lines<'a>,
+) -> Option<(&'a str, usize, bool)> {
     pending.take().or_else(|| lines.next_line())
 }
 
@@ -201,7 +226,9 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
                 continue;
             }
             match prefix {
-                Some(prefix) if line.trim_start().starts_with(prefix) => read_meta(line, number, &mut metadata),
+                Some(prefix) if line.trim_start().starts_with(prefix) => {
+                    read_meta(line, number, &mut metadata)
+                }
                 _ => {
                     pending = Some((line, number, terminated));
                     break;
@@ -249,10 +276,11 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
     let cycle = optional(columns.cycle.as_ref(), "cycle")?;
 
     let (angle_unit, angle_unit_line) = cx.unit_text(&columns.angle.unit, &angle, header_line, &metadata)?;
-    let angle_unit: AngleUnit = angle_unit
-        .parse()
-        .map_err(|e: twistlot_model::UnknownUnit| cx.error(RejectKind::UnknownUnit, angle_unit_line, Some(&angle.label), e.to_string()))?;
-    let (torque_unit, torque_unit_line) = cx.unit_text(&columns.torque.unit, &torque, header_line, &metadata)?;
+    let angle_unit: AngleUnit = angle_unit.parse().map_err(|e: twistlot_model::UnknownUnit| {
+        cx.error(RejectKind::UnknownUnit, angle_unit_line, Some(&angle.label), e.to_string())
+    })?;
+    let (torque_unit, torque_unit_line) =
+        cx.unit_text(&columns.torque.unit, &torque, header_line, &metadata)?;
     let torque_unit: TorqueUnit = torque_unit.parse().map_err(|e: twistlot_model::UnknownUnit| {
         cx.error(RejectKind::UnknownUnit, torque_unit_line, Some(&torque.label), e.to_string())
     })?;
@@ -270,8 +298,10 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
         Stroke,
         Cycle,
     }
-    let mut wanted: Vec<(usize, Role, &str)> =
-        vec![(angle.index, Role::Angle, angle.label.as_str()), (torque.index, Role::Torque, torque.label.as_str())];
+    let mut wanted: Vec<(usize, Role, &str)> = vec![
+        (angle.index, Role::Angle, angle.label.as_str()),
+        (torque.index, Role::Torque, torque.label.as_str()),
+    ];
     if let Some(f) = &time {
         wanted.push((f.index, Role::Time, f.label.as_str()));
     }
@@ -325,7 +355,11 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
                 RejectKind::Truncated,
                 Some(number),
                 Some(missing),
-                format!("{what} has {} field(s) but the `{missing}` column is field {}", cells.len(), missing_index + 1),
+                format!(
+                    "{what} has {} field(s) but the `{missing}` column is field {}",
+                    cells.len(),
+                    missing_index + 1
+                ),
             ));
         }
         for &(index, role, label) in &wanted {
@@ -362,7 +396,8 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
                     }
                 }
                 Role::Stroke => {
-                    let (load, unload) = stroke_labels.as_ref().map(|(l, u)| (l.as_str(), u.as_str())).unwrap_or_default();
+                    let (load, unload) =
+                        stroke_labels.as_ref().map(|(l, u)| (l.as_str(), u.as_str())).unwrap_or_default();
                     let value = if cell.eq_ignore_ascii_case(load) {
                         Stroke::Load
                     } else if cell.eq_ignore_ascii_case(unload) {

@@ -154,10 +154,20 @@ mod tests {
     fn refusals() {
         for bad in [&b""[..], b"-", b"12,5x", b"1.2.3", b"abc", b"1e", b"--1", b"1 2", b"12.5"] {
             let decimal = if bad == b"12.5" { b',' } else { b'.' };
-            assert_eq!(parse_decimal(bad, decimal), Err(NumberError::NotANumber), "{:?}", std::str::from_utf8(bad));
+            assert_eq!(
+                parse_decimal(bad, decimal),
+                Err(NumberError::NotANumber),
+                "{:?}",
+                std::str::from_utf8(bad)
+            );
         }
         for bad in [&b"NaN"[..], b"nan", b"-inf", b"Infinity", b"1e999"] {
-            assert_eq!(parse_decimal(bad, b'.'), Err(NumberError::NotFinite), "{:?}", std::str::from_utf8(bad));
+            assert_eq!(
+                parse_decimal(bad, b'.'),
+                Err(NumberError::NotFinite),
+                "{:?}",
+                std::str::from_utf8(bad)
+            );
         }
     }
 

@@ -37,7 +37,8 @@ impl Export {
 /// Reads an export from disk, choosing the format by detection unless one is forced.
 pub fn read_path(path: &Path, formats: &FormatSet, forced: Option<&str>) -> Result<Export, IngestError> {
     let file = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| IngestError::file(RejectKind::Io, &file, format!("cannot read: {e}")))?;
+    let bytes = std::fs::read(path)
+        .map_err(|e| IngestError::file(RejectKind::Io, &file, format!("cannot read: {e}")))?;
     read_bytes(&file, path, &bytes, formats, forced)
 }
 
@@ -77,9 +78,14 @@ pub fn read_with(file: &str, path: &Path, bytes: &[u8], format: &RigFormat) -> R
             let printed = run_converter(file, path, &format.name, spec, plugin_dir)?;
             let native = RigFormat::native();
             let Reader::Layout(layout) = &native.reader else {
-                return Err(IngestError::file(RejectKind::Converter, file, "the native format is not a layout"));
+                return Err(IngestError::file(
+                    RejectKind::Converter,
+                    file,
+                    "the native format is not a layout",
+                ));
             };
-            let text = decode(file, &printed, layout.encoding).map_err(|e| converter_output(e, &format.name))?;
+            let text =
+                decode(file, &printed, layout.encoding).map_err(|e| converter_output(e, &format.name))?;
             if text.trim().is_empty() {
                 return Err(IngestError::file(RejectKind::Converter, file, "the converter printed nothing")
                     .with_format(&format.name));
@@ -96,7 +102,8 @@ pub fn read_with(file: &str, path: &Path, bytes: &[u8], format: &RigFormat) -> R
         metadata.set(key, value);
     }
     let frame = build_frame(&metadata.test_id(), raw).map_err(|e| {
-        IngestError::file(RejectKind::Io, file, format!("could not build the curve frame: {e}")).with_format(&format.name)
+        IngestError::file(RejectKind::Io, file, format!("could not build the curve frame: {e}"))
+            .with_format(&format.name)
     })?;
     Ok(Export { metadata, rig_format: format.name.clone(), frame })
 }

@@ -21,7 +21,8 @@ pub fn derive_strokes(angle_deg: &[f64]) -> (Vec<Stroke>, Vec<u32>) {
     if n < 2 {
         return (strokes, cycles);
     }
-    let (lo, hi) = angle_deg.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &a| (lo.min(a), hi.max(a)));
+    let (lo, hi) =
+        angle_deg.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &a| (lo.min(a), hi.max(a)));
     let threshold = (hi - lo) * REVERSAL_FRACTION;
     if threshold <= 0.0 {
         return (strokes, cycles);

@@ -50,7 +50,11 @@ fn metadata() -> Vec<(&'static str, String)> {
     ]
 }
 
-fn read(formats: &FormatSet, name: &str, bytes: &[u8]) -> Result<twistlot_ingest::Export, twistlot_ingest::IngestError> {
+fn read(
+    formats: &FormatSet,
+    name: &str,
+    bytes: &[u8],
+) -> Result<twistlot_ingest::Export, twistlot_ingest::IngestError> {
     read_bytes(name, Path::new(name), bytes, formats, None)
 }
 
@@ -73,8 +77,14 @@ fn every_layout_round_trips_within_its_printed_precision() {
         assert_eq!(back.len(), curve.len(), "{file}");
         let (angle_res, torque_res) = printed_resolution(&m, &style).unwrap();
         for k in 0..curve.len() {
-            assert!((back.angle_deg[k] - curve.angle_deg[k]).abs() <= angle_res / 2.0 + 1e-9, "{file} angle {k}");
-            assert!((back.torque_nmm[k] - curve.torque_nmm[k]).abs() <= torque_res / 2.0 + 1e-9, "{file} torque {k}");
+            assert!(
+                (back.angle_deg[k] - curve.angle_deg[k]).abs() <= angle_res / 2.0 + 1e-9,
+                "{file} angle {k}"
+            );
+            assert!(
+                (back.torque_nmm[k] - curve.torque_nmm[k]).abs() <= torque_res / 2.0 + 1e-9,
+                "{file} torque {k}"
+            );
         }
         // Strokes read from a column match exactly; derived ones may differ only in the dwell.
         assert!(share_equal(&back.stroke, &curve.stroke) > 0.97, "{file}: strokes differ");
@@ -214,7 +224,8 @@ fn unknown_units_in_a_header_are_named() {
 fn decimal_comma_errors_name_the_separator() {
     let (m, path) = manifest("ostrel-semi.yaml");
     let formats = FormatSet::new(vec![RigFormat::from_manifest(m, Some(&path)).unwrap()]).unwrap();
-    let text = "OSTREL TQ\n\"Serial No.\";\"7\"\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;+\n1,0;12,5x;+\n";
+    let text =
+        "OSTREL TQ\n\"Serial No.\";\"7\"\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;+\n1,0;12,5x;+\n";
     let err = read(&formats, "b.csv", text.as_bytes()).unwrap_err();
     assert_eq!(err.kind, RejectKind::NotANumber);
     assert_eq!(err.line, Some(6));
@@ -239,18 +250,24 @@ fn a_bad_stroke_label_is_named() {
 fn two_plugins_claiming_a_file_are_both_named() {
     let (mut twin, _) = manifest("native.yaml");
     twin.name = "native-copy".into();
-    let formats = FormatSet::new(vec![RigFormat::native(), RigFormat::from_manifest(twin, None).unwrap()]).unwrap();
+    let formats =
+        FormatSet::new(vec![RigFormat::native(), RigFormat::from_manifest(twin, None).unwrap()]).unwrap();
     let err = read(&formats, "t.csv", b"angle_deg,torque_nmm\n0,0\n").unwrap_err();
     assert_eq!(err.kind, RejectKind::Ambiguous);
     assert!(err.message.contains("`native`") && err.message.contains("`native-copy`"), "{err}");
     // Naming the format settles it.
-    let export = read_bytes("t.csv", Path::new("t.csv"), b"angle_deg,torque_nmm\n0,0\n", &formats, Some("native")).unwrap();
+    let export =
+        read_bytes("t.csv", Path::new("t.csv"), b"angle_deg,torque_nmm\n0,0\n", &formats, Some("native"))
+            .unwrap();
     assert_eq!(export.rig_format, "native");
 }
 
 #[test]
 fn crlf_bom_and_extra_columns_are_fine_in_native() {
-    let export = native("\u{feff}# serial: A1\r\n# fixture: F-2\r\nangle_deg,torque_nmm,extra\r\n0,0,x\r\n10,20,y\r\n").unwrap();
+    let export = native(
+        "\u{feff}# serial: A1\r\n# fixture: F-2\r\nangle_deg,torque_nmm,extra\r\n0,0,x\r\n10,20,y\r\n",
+    )
+    .unwrap();
     assert_eq!(export.points(), 2);
     assert_eq!(export.metadata.extra.get("fixture").map(String::as_str), Some("F-2"));
     let frame = &export.frame;

@@ -1,12 +1,18 @@
 //! Runs twistlot's jobs end to end; the only crate that knows all the others.
 //!
-//! For: finding plugins ([`plugins`]), and (as the issues land) the shift run,
-//! the plan run and the trend run, plus plant config loading.
+//! For: finding and validating plugins ([`plugins`]), loading the plant config
+//! and its part specs ([`plant`]), and evaluating exports against their specs
+//! ([`evaluate`]): ingest pushes each export into the evaluator, which keeps one
+//! result row per test and drops the curve.
 //!
 //! Not for: computations (layer-1 crates), rendering (report) or printing (cli).
 //!
-//! Main types: [`PluginCatalog`].
+//! Main types: [`PluginCatalog`], [`Plant`], [`SpecLibrary`], [`TestResult`].
 
+pub mod evaluate;
+pub mod plant;
 pub mod plugins;
 
-pub use plugins::{shipped_plugins_dir, PluginCatalog, PluginEntry};
+pub use evaluate::{evaluate_files, EvaluateOptions, Evaluated, SpecSource, TestResult};
+pub use plant::{Plant, PlantError, SpecLibrary};
+pub use plugins::{check_manifests, shipped_plugins_dir, PluginCatalog, PluginEntry};

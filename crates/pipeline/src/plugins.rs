@@ -37,7 +37,9 @@ impl PluginCatalog {
             for path in files {
                 let origin = path.display().to_string();
                 let manifest = match std::fs::read_to_string(&path) {
-                    Ok(text) => Manifest::from_yaml(&origin, &text),
+                    Ok(text) => {
+                        Manifest::from_yaml(&origin, &text).and_then(|m| check_body(&origin, &text, m))
+                    }
                     Err(err) => Err(DocumentError {
                         origin: origin.clone(),
                         line: None,
@@ -80,6 +82,36 @@ impl PluginCatalog {
     }
 }
 
+/// Validates the parts of a manifest that belong to a layer-1 crate (a sampling
+/// scheme's tables), so `twistlot plugins` reports them like any other error.
+fn check_body(origin: &str, text: &str, manifest: Manifest) -> Result<Manifest, DocumentError> {
+    if let Manifest::SamplingScheme(_) = &manifest {
+        if let Err(err) = twistlot_sampling::Scheme::from_yaml(origin, text) {
+            return Err(match err {
+                twistlot_sampling::SamplingError::Document(doc) => doc,
+                other => DocumentError {
+                    origin: origin.to_string(),
+                    line: None,
+                    field: None,
+                    message: other.to_string(),
+                },
+            });
+        }
+    }
+    Ok(manifest)
+}
+
+/// The check plugins, compiled.
+pub fn check_manifests(catalog: &PluginCatalog) -> Vec<twistlot_model::plugin::CheckManifest> {
+    catalog
+        .of_kind(PluginKind::Check)
+        .filter_map(|(_, m)| match m {
+            Manifest::Check(check) => Some(check.clone()),
+            _ => None,
+        })
+        .collect()
+}
+
 fn collect_yaml(dir: &Path, out: &mut Vec<PathBuf>) {
     let Ok(entries) = std::fs::read_dir(dir) else { return };
     for entry in entries.flatten() {
@@ -109,8 +141,11 @@ mod tests {
     #[test]
     fn a_broken_manifest_is_listed_with_its_line() {
         let dir = tempfile::tempdir().unwrap();
-        std::fs::write(dir.path().join("bad.yaml"), "name: x\nkind: rig-format\napi: 1\ndescription: d\ndetect: 3\n")
-            .unwrap();
+        std::fs::write(
+            dir.path().join("bad.yaml"),
+            "name: x\nkind: rig-format\napi: 1\ndescription: d\ndetect: 3\n",
+        )
+        .unwrap();
         let catalog = PluginCatalog::discover(&[dir.path().to_path_buf()]);
         let errors = catalog.errors();
         assert_eq!(errors.len(), 1);

@@ -204,12 +204,15 @@ pub fn generate_shift(
 ) -> Result<Vec<GeneratedFile>, DemoError> {
     let mut rng = ChaCha8Rng::seed_from_u64(plan.seed);
     let mut files = Vec::new();
-    let mut lot_list = String::from("# Lots waiting for a decision at the end of the shift (written by the generator).\nlots:\n");
+    let mut lot_list = String::from(
+        "# Lots waiting for a decision at the end of the shift (written by the generator).\nlots:\n",
+    );
     for lot in &plan.lots {
-        let rig = plan.rigs.iter().find(|r| r.name == lot.rig).ok_or_else(|| DemoError::UnknownRig {
-            lot: lot.lot.clone(),
-            rig: lot.rig.clone(),
-        })?;
+        let rig = plan
+            .rigs
+            .iter()
+            .find(|r| r.name == lot.rig)
+            .ok_or_else(|| DemoError::UnknownRig { lot: lot.lot.clone(), rig: lot.rig.clone() })?;
         let spec = specs
             .get(&lot.part)
             .ok_or_else(|| DemoError::UnknownPart { lot: lot.lot.clone(), part: lot.part.clone() })?;
@@ -231,7 +234,9 @@ pub fn generate_shift(
             let diameter_ratio: f64 = wire.sample(&mut rng);
             let mut model = SpringModel::new(
                 nominal_rate * diameter_ratio.powi(4),
-                nominal_free + lot.free_angle_shift_deg + FREE_ANGLE_SD_DEG * rng.sample::<f64, _>(StandardNormal),
+                nominal_free
+                    + lot.free_angle_shift_deg
+                    + FREE_ANGLE_SD_DEG * rng.sample::<f64, _>(StandardNormal),
                 spec.test.max_angle_deg,
             );
             model.pre_cycles = spec.test.pre_cycles;

@@ -101,7 +101,8 @@ impl SpringModel {
             let free = self.free_angle_deg + self.set_per_cycle_deg * f64::from(cycle - 1);
             let mut push = |true_angle: f64, stroke: Stroke, rng: &mut dyn rand::RngCore| {
                 let elastic = self.elastic_torque_nmm(true_angle, free);
-                let friction = if elastic > 0.0 { self.friction_share * elastic + self.friction_nmm } else { 0.0 };
+                let friction =
+                    if elastic > 0.0 { self.friction_share * elastic + self.friction_nmm } else { 0.0 };
                 let torque = match stroke {
                     Stroke::Load => elastic + friction,
                     Stroke::Unload => (elastic - friction).max(0.0),

@@ -61,7 +61,11 @@ impl WriteStyle {
 }
 
 /// The units written: fixed units as the manifest says, else the style's.
-fn chosen_units(manifest: &RigFormatManifest, layout: &Layout, style: &WriteStyle) -> Result<(AngleUnit, TorqueUnit), WriteError> {
+fn chosen_units(
+    manifest: &RigFormatManifest,
+    layout: &Layout,
+    style: &WriteStyle,
+) -> Result<(AngleUnit, TorqueUnit), WriteError> {
     let unit_error = |e: twistlot_model::UnknownUnit| WriteError::Unit(manifest.name.clone(), e.to_string());
     let angle = match &layout.columns.angle.unit {
         UnitSource::Fixed(unit) => unit.parse().map_err(unit_error)?,
@@ -76,7 +80,10 @@ fn chosen_units(manifest: &RigFormatManifest, layout: &Layout, style: &WriteStyl
 
 /// The printed resolution in canonical units (degrees, N·mm) for this layout: a
 /// round trip is exact to within half of it.
-pub fn printed_resolution(manifest: &RigFormatManifest, style: &WriteStyle) -> Result<(f64, f64), WriteError> {
+pub fn printed_resolution(
+    manifest: &RigFormatManifest,
+    style: &WriteStyle,
+) -> Result<(f64, f64), WriteError> {
     let layout = manifest.layout.as_ref().ok_or_else(|| WriteError::NotALayout(manifest.name.clone()))?;
     let (angle, torque) = chosen_units(manifest, layout, style)?;
     let angle_places = places(RESOLUTION_DEG, angle.deg_per_unit());
@@ -120,7 +127,12 @@ pub fn write_layout(
         .filter(|s| !header_names.iter().any(|n| n.as_deref() == Some(*s)))
         .collect();
     if !banner.is_empty() {
-        let _ = write!(out, "{}{} export{eol}", prefix.as_deref().map(|p| format!("{p} ")).unwrap_or_default(), banner.join(" "));
+        let _ = write!(
+            out,
+            "{}{} export{eol}",
+            prefix.as_deref().map(|p| format!("{p} ")).unwrap_or_default(),
+            banner.join(" ")
+        );
     }
 
     // Metadata, with the layout's own labels.
@@ -131,7 +143,8 @@ pub fn write_layout(
             .and_then(|m| m.keys.iter().find(|(_, v)| v.as_str() == key).map(|(k, _)| k.clone()))
             .unwrap_or_else(|| key.to_string())
     };
-    let mut meta_lines: Vec<(String, String)> = metadata.iter().map(|(k, v)| (label_for(k), v.clone())).collect();
+    let mut meta_lines: Vec<(String, String)> =
+        metadata.iter().map(|(k, v)| (label_for(k), v.clone())).collect();
     if let UnitSource::Metadata(label) = &layout.columns.torque.unit {
         meta_lines.push((label.clone(), torque_unit.symbol().to_string()));
     }
@@ -295,7 +308,14 @@ pub fn write_layout(
 
 /// Writes the gantry rig's JSON document (the exec example's input layout).
 pub fn write_gantry_json(metadata: &[(&str, String)], curve: &CurveData) -> Vec<u8> {
-    let keys = [("serial", "sn"), ("part", "pn"), ("lot", "lot"), ("rig", "station"), ("operator", "op"), ("started", "t0")];
+    let keys = [
+        ("serial", "sn"),
+        ("part", "pn"),
+        ("lot", "lot"),
+        ("rig", "station"),
+        ("operator", "op"),
+        ("started", "t0"),
+    ];
     let meta: serde_json::Map<String, serde_json::Value> = metadata
         .iter()
         .map(|(k, v)| {
@@ -307,7 +327,11 @@ pub fn write_gantry_json(metadata: &[(&str, String)], curve: &CurveData) -> Vec<
         .map(|i| {
             let t = curve.time_s.as_ref().map(|t| t[i]).unwrap_or(0.0);
             let round = |v: f64, places: i32| (v * 10f64.powi(places)).round() / 10f64.powi(places);
-            serde_json::json!([round(t, 3), round(curve.angle_deg[i].to_radians(), 6), round(curve.torque_nmm[i] / 1000.0, 7)])
+            serde_json::json!([
+                round(t, 3),
+                round(curve.angle_deg[i].to_radians(), 6),
+                round(curve.torque_nmm[i] / 1000.0, 7)
+            ])
         })
         .collect();
     let doc = serde_json::json!({

@@ -1,0 +1,164 @@
+//! Evaluating exports: read each file, compute its curve metrics, judge it against its spec.
+//!
+//! Each file's frame is dropped as soon as its metrics are computed, so memory
+//! holds one result row per test (DESIGN.md §8).
+
+use crate::plant::SpecLibrary;
+use serde::Serialize;
+use std::path::PathBuf;
+use twistlot_ingest::{ingest_each, FormatSet, IngestError};
+use twistlot_model::{CharacteristicClass, Finding, Verdict};
+use twistlot_stats::{curve_metrics, judge_with, CheckSet, CurveMetrics, MetricOptions};
+
+/// Where specs come from.
+#[derive(Debug, Clone)]
+pub enum SpecSource {
+    /// One spec for every file (`--spec FILE`).
+    Fixed(SpecLibrary),
+    /// By the part number in each export's metadata (the plant's parts folder).
+    ByPart(SpecLibrary),
+    /// No spec: metrics only.
+    None,
+}
+
+/// Options for an evaluation run.
+#[derive(Debug, Clone, Default)]
+pub struct EvaluateOptions {
+    /// Overrides the spec's evaluation window (`[0, 1]` = the whole loading stroke).
+    pub window: Option<[f64; 2]>,
+    /// Read every file with this rig format.
+    pub rig_format: Option<String>,
+}
+
+/// One test's result.
+#[derive(Debug, Clone, Serialize)]
+pub struct TestResult {
+    /// Test identifier.
+    pub test_id: String,
+    /// Source file.
+    pub file: String,
+    /// Serial.
+    pub serial: Option<String>,
+    /// Part number.
+    pub part: Option<String>,
+    /// Lot.
+    pub lot: Option<String>,
+    /// Rig.
+    pub rig: Option<String>,
+    /// Operator.
+    pub operator: Option<String>,
+    /// Rig format that read the file.
+    pub rig_format: String,
+    /// Spec file used, when there was one.
+    pub spec_file: Option<String>,
+    /// Drawing revision of that spec.
+    pub spec_revision: Option<String>,
+    /// The curve metrics.
+    #[serde(flatten)]
+    pub metrics: CurveMetrics,
+    /// Verdict, absent when there was no spec to judge against.
+    pub verdict: Option<Verdict>,
+    /// Findings per characteristic.
+    pub findings: Vec<Finding>,
+}
+
+/// What became of one input file.
+#[derive(Debug)]
+pub enum Evaluated {
+    /// Read and evaluated.
+    Test(Box<TestResult>),
+    /// Not read, or its curve could not be evaluated.
+    Rejected(IngestError),
+}
+
+/// Evaluates every file.
+pub fn evaluate_files(
+    files: &[PathBuf],
+    formats: &FormatSet,
+    specs: &SpecSource,
+    checks: &CheckSet,
+    options: &EvaluateOptions,
+) -> Vec<Evaluated> {
+    ingest_each(files, formats, options.rig_format.as_deref(), |outcome| {
+        let export = match outcome.result {
+            Ok(export) => export,
+            Err(err) => return Evaluated::Rejected(err),
+        };
+        let file = outcome.path.display().to_string();
+        let curve = match export.curve() {
+            Ok(curve) => curve,
+            Err(err) => {
+                return Evaluated::Rejected(IngestError::file(
+                    twistlot_ingest::RejectKind::NoData,
+                    &file,
+                    format!("the curve frame is not canonical: {err}"),
+                ))
+            }
+        };
+        let meta = &export.metadata;
+        let spec_entry = match specs {
+            SpecSource::Fixed(library) => library.only(),
+            SpecSource::ByPart(library) => meta.part.as_deref().and_then(|p| library.get(p)),
+            SpecSource::None => None,
+        };
+        let mut metric_options = match spec_entry {
+            Some(entry) => MetricOptions::from_spec(&entry.spec)
+                .with_check_angles(checks.checks(), Some(&entry.spec.part)),
+            None => MetricOptions::default(),
+        };
+        if let Some(window) = options.window {
+            metric_options.window = window;
+        }
+        let metrics = match curve_metrics(&curve, &metric_options) {
+            Ok(metrics) => metrics,
+            Err(err) => {
+                return Evaluated::Rejected(
+                    IngestError::file(
+                        twistlot_ingest::RejectKind::NoData,
+                        &file,
+                        format!("cannot evaluate the curve: {err}"),
+                    )
+                    .with_format(&export.rig_format),
+                )
+            }
+        };
+        let (verdict, findings) = match (spec_entry, specs) {
+            (Some(entry), _) => {
+                let judgement = judge_with(&metrics, &entry.spec, checks);
+                (Some(judgement.verdict), judgement.findings)
+            }
+            // A plant that has specs but none for this part: say so instead of passing it.
+            (None, SpecSource::ByPart(_)) => (
+                Some(Verdict::Invalid),
+                vec![Finding {
+                    characteristic: "spec".into(),
+                    class: CharacteristicClass::Critical,
+                    value: None,
+                    lower: None,
+                    upper: None,
+                    verdict: Verdict::Invalid,
+                    message: match &meta.part {
+                        Some(part) => format!("no spec for part `{part}` in the plant's parts folder"),
+                        None => "the export names no part number, so no spec applies".into(),
+                    },
+                }],
+            ),
+            (None, _) => (None, Vec::new()),
+        };
+        Evaluated::Test(Box::new(TestResult {
+            test_id: meta.test_id(),
+            file,
+            serial: meta.serial.clone(),
+            part: meta.part.clone(),
+            lot: meta.lot.clone(),
+            rig: meta.rig.clone(),
+            operator: meta.operator.clone(),
+            rig_format: export.rig_format.clone(),
+            spec_file: spec_entry.map(|e| e.path.display().to_string()),
+            spec_revision: spec_entry.map(|e| e.spec.revision.clone()),
+            metrics,
+            verdict,
+            findings,
+        }))
+    })
+}

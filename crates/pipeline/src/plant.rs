@@ -1,0 +1,190 @@
+//! The plant config and the library of part specs it points to.
+
+use serde::Deserialize;
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use twistlot_model::yaml::parse_document;
+use twistlot_model::{DocumentError, PartSpec};
+
+/// The plant config as written (paths relative to the file).
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct PlantFile {
+    plant: String,
+    parts: PathBuf,
+    #[serde(default)]
+    plugins: Vec<PathBuf>,
+    #[serde(default)]
+    templates: Option<PathBuf>,
+    #[serde(default)]
+    history: Option<PathBuf>,
+    #[serde(default)]
+    rigs: Vec<RigEntry>,
+}
+
+/// A rig the plant runs.
+#[derive(Debug, Clone, PartialEq, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct RigEntry {
+    /// Rig name as the exports carry it.
+    pub name: String,
+    /// Rig-format plugin its exports follow.
+    pub format: String,
+    /// Load-cell capacity, N·mm.
+    #[serde(default)]
+    pub capacity_nmm: Option<f64>,
+}
+
+/// A loaded plant config with paths resolved against its folder.
+#[derive(Debug, Clone)]
+pub struct Plant {
+    /// The config file.
+    pub path: PathBuf,
+    /// Plant name.
+    pub name: String,
+    /// Folder of part specs.
+    pub parts_dir: PathBuf,
+    /// Extra plugin folders (the shipped ones are always used too).
+    pub plugin_dirs: Vec<PathBuf>,
+    /// Template override folder.
+    pub templates_dir: Option<PathBuf>,
+    /// History store location.
+    pub history_dir: Option<PathBuf>,
+    /// Rigs.
+    pub rigs: Vec<RigEntry>,
+}
+
+/// Why the plant config or a spec did not load.
+#[derive(Debug, thiserror::Error)]
+pub enum PlantError {
+    /// A file could not be read.
+    #[error("{path}: cannot read: {source}")]
+    Read {
+        /// The file.
+        path: String,
+        /// The cause.
+        source: std::io::Error,
+    },
+    /// A document did not parse or validate.
+    #[error(transparent)]
+    Document(#[from] DocumentError),
+    /// Two specs claim one part number.
+    #[error("part `{part}` has two specs: {first} and {second}")]
+    DuplicatePart {
+        /// Part number.
+        part: String,
+        /// First file.
+        first: String,
+        /// Second file.
+        second: String,
+    },
+}
+
+fn read(path: &Path) -> Result<String, PlantError> {
+    std::fs::read_to_string(path)
+        .map_err(|source| PlantError::Read { path: path.display().to_string(), source })
+}
+
+impl Plant {
+    /// Loads and resolves a plant config.
+    pub fn load(path: &Path) -> Result<Plant, PlantError> {
+        let text = read(path)?;
+        let origin = path.display().to_string();
+        let file: PlantFile = parse_document(&origin, &text)?;
+        let base = path.parent().unwrap_or(Path::new("."));
+        let resolve = |p: &Path| if p.is_absolute() { p.to_path_buf() } else { base.join(p) };
+        let parts_dir = resolve(&file.parts);
+        if !parts_dir.is_dir() {
+            return Err(DocumentError::at_field(
+                &origin,
+                &text,
+                "parts",
+                format!("the parts folder {} does not exist", parts_dir.display()),
+            )
+            .into());
+        }
+        Ok(Plant {
+            path: path.to_path_buf(),
+            name: file.plant,
+            parts_dir,
+            plugin_dirs: file.plugins.iter().map(|p| resolve(p)).collect(),
+            templates_dir: file.templates.as_deref().map(resolve),
+            history_dir: file.history.as_deref().map(resolve),
+            rigs: file.rigs,
+        })
+    }
+}
+
+/// A loaded spec and the file it came from.
+#[derive(Debug, Clone)]
+pub struct SpecEntry {
+    /// The spec.
+    pub spec: PartSpec,
+    /// Its file.
+    pub path: PathBuf,
+}
+
+/// Part specs by part number.
+#[derive(Debug, Clone, Default)]
+pub struct SpecLibrary {
+    specs: BTreeMap<String, SpecEntry>,
+}
+
+impl SpecLibrary {
+    /// Loads every `*.yaml` spec in a folder; any bad spec is an error naming its file and line.
+    pub fn load_dir(dir: &Path) -> Result<SpecLibrary, PlantError> {
+        let entries = std::fs::read_dir(dir)
+            .map_err(|source| PlantError::Read { path: dir.display().to_string(), source })?;
+        let mut paths: Vec<PathBuf> = entries
+            .filter_map(|e| e.ok().map(|e| e.path()))
+            .filter(|p| matches!(p.extension().and_then(|e| e.to_str()), Some("yaml" | "yml")))
+            .collect();
+        paths.sort();
+        let mut library = SpecLibrary::default();
+        for path in paths {
+            library.add_file(&path)?;
+        }
+        Ok(library)
+    }
+
+    /// A library of one spec file.
+    pub fn single(path: &Path) -> Result<SpecLibrary, PlantError> {
+        let mut library = SpecLibrary::default();
+        library.add_file(path)?;
+        Ok(library)
+    }
+
+    fn add_file(&mut self, path: &Path) -> Result<(), PlantError> {
+        let text = read(path)?;
+        let spec = PartSpec::from_yaml(&path.display().to_string(), &text)?;
+        if let Some(existing) = self.specs.get(&spec.part) {
+            return Err(PlantError::DuplicatePart {
+                part: spec.part.clone(),
+                first: existing.path.display().to_string(),
+                second: path.display().to_string(),
+            });
+        }
+        self.specs.insert(spec.part.clone(), SpecEntry { spec, path: path.to_path_buf() });
+        Ok(())
+    }
+
+    /// The spec for a part number.
+    pub fn get(&self, part: &str) -> Option<&SpecEntry> {
+        self.specs.get(part)
+    }
+
+    /// The only spec, when the library holds exactly one (a `--spec FILE`).
+    pub fn only(&self) -> Option<&SpecEntry> {
+        (self.specs.len() == 1).then(|| self.specs.values().next()).flatten()
+    }
+
+    /// Number of specs.
+    pub fn len(&self) -> usize {
+        self.specs.len()
+    }
+
+    /// True when empty.
+    pub fn is_empty(&self) -> bool {
+        self.specs.is_empty()
+    }
+}

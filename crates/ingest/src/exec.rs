@@ -1,4 +1,4 @@
-//! Running an exec converter: argv only, a JSON request on stdin, native format on stdout.
+//! Running exec plugins: argv only, a JSON request on stdin, the answer on stdout.
 
 use crate::error::{IngestError, RejectKind};
 use std::io::{Read, Write};
@@ -23,9 +23,30 @@ pub fn run_converter(
     let absolute =
         std::path::absolute(path).map_err(|e| fail(format!("cannot resolve the file's path: {e}")))?;
     let absolute_text = absolute.to_string_lossy().to_string();
-    let argv: Vec<String> = spec.command.iter().map(|arg| arg.replace("{file}", &absolute_text)).collect();
+    let request = serde_json::json!({
+        "protocol": EXEC_PROTOCOL,
+        "plugin": plugin,
+        "file": absolute_text,
+    });
+    run_program(spec, plugin_dir, &[("{file}", &absolute_text)], request.to_string().as_bytes()).map_err(fail)
+}
+
+/// Runs an exec plugin's program: argv with `{key}` replacements (never a shell),
+/// `stdin` written to it, its stdout returned; stopped at the manifest's time limit.
+/// The error says what happened, in words (the caller adds the plugin's name).
+pub fn run_program(
+    spec: &ExecSpec,
+    plugin_dir: &Path,
+    replacements: &[(&str, &str)],
+    stdin_bytes: &[u8],
+) -> Result<Vec<u8>, String> {
+    let argv: Vec<String> = spec
+        .command
+        .iter()
+        .map(|arg| replacements.iter().fold(arg.clone(), |acc, (key, value)| acc.replace(key, value)))
+        .collect();
     let Some((program, args)) = argv.split_first() else {
-        return Err(fail("the manifest names no program".into()));
+        return Err("the manifest names no program".into());
     };
     // A relative program path with a slash is the plugin's own script or binary.
     let program_path = if program.contains('/') && Path::new(program).is_relative() {
@@ -40,18 +61,12 @@ pub fn run_converter(
         .stdout(Stdio::piped())
         .stderr(Stdio::piped())
         .spawn()
-        .map_err(|e| fail(format!("converter `{}` could not start: {e}", program_path.display())))?;
-
-    let request = serde_json::json!({
-        "protocol": EXEC_PROTOCOL,
-        "plugin": plugin,
-        "file": absolute_text,
-    });
+        .map_err(|e| format!("program `{}` could not start: {e}", program_path.display()))?;
     if let Some(mut stdin) = child.stdin.take() {
-        // A converter that ignores stdin may close it early; that is not an error.
-        let _ = stdin.write_all(request.to_string().as_bytes());
+        // A program that ignores stdin may close it early; that is not an error.
+        let _ = stdin.write_all(stdin_bytes);
     }
-    // Read both pipes on threads so a chatty converter cannot block on a full pipe.
+    // Read both pipes on threads so a chatty program cannot block on a full pipe.
     let mut stdout = child.stdout.take();
     let mut stderr = child.stderr.take();
     let out_reader = std::thread::spawn(move || {
@@ -69,20 +84,18 @@ pub fn run_converter(
         buf
     });
     let limit = Duration::from_secs_f64(spec.timeout_s);
-    let status = match child
-        .wait_timeout(limit)
-        .map_err(|e| fail(format!("waiting for the converter failed: {e}")))?
-    {
-        Some(status) => status,
-        None => {
-            let _ = child.kill();
-            let _ = child.wait();
-            return Err(fail(format!(
-                "the converter did not finish within its limit of {} s and was stopped",
-                spec.timeout_s
-            )));
-        }
-    };
+    let status =
+        match child.wait_timeout(limit).map_err(|e| format!("waiting for the program failed: {e}"))? {
+            Some(status) => status,
+            None => {
+                let _ = child.kill();
+                let _ = child.wait();
+                return Err(format!(
+                    "the program did not finish within its limit of {} s and was stopped",
+                    spec.timeout_s
+                ));
+            }
+        };
     let out = out_reader.join().unwrap_or_default();
     let err = err_reader.join().unwrap_or_default();
     if !status.success() {
@@ -93,11 +106,11 @@ pub fn run_converter(
         let skip = tail.chars().count().saturating_sub(STDERR_QUOTE_CHARS);
         let quoted: String = tail.chars().skip(skip).collect();
         let code = status.code().map(|c| c.to_string()).unwrap_or_else(|| "a signal".into());
-        return Err(fail(if quoted.is_empty() {
-            format!("the converter exited with {code}")
+        return Err(if quoted.is_empty() {
+            format!("the program exited with {code}")
         } else {
-            format!("the converter exited with {code}: {quoted}")
-        }));
+            format!("the program exited with {code}: {quoted}")
+        });
     }
     Ok(out)
 }

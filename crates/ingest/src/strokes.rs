@@ -2,13 +2,30 @@
 //!
 //! A direction change is only believed once the angle has come back from its
 //! running extreme by more than a threshold (a fraction of the tested range), so
-//! noise and a dwell at the turning point never start a spurious stroke. Points
+//! noise and a dwell at the turning point never start a spurious stroke; the
+//! threshold grows with the angle channel's own noise. Points
 //! after the extreme are then given to the new stroke retroactively.
 
 use twistlot_model::Stroke;
 
 /// Share of the angle range the leg must travel back before a reversal counts.
 pub const REVERSAL_FRACTION: f64 = 0.02;
+/// A reversal must also exceed this many standard deviations of the angle noise.
+pub const NOISE_MULTIPLE: f64 = 4.0;
+/// The threshold never exceeds this share of the range, however noisy the channel.
+const MAX_REVERSAL_FRACTION: f64 = 0.25;
+
+/// Standard deviation of the angle channel's noise, from second differences
+/// (which cancel the leg's steady motion): σ ≈ 1.4826·median|Δ²a| / √6.
+fn angle_noise_sd(angle_deg: &[f64]) -> f64 {
+    if angle_deg.len() < 3 {
+        return 0.0;
+    }
+    let mut second: Vec<f64> = angle_deg.windows(3).map(|w| (w[2] - 2.0 * w[1] + w[0]).abs()).collect();
+    let mid = second.len() / 2;
+    let (_, median, _) = second.select_nth_unstable_by(mid, f64::total_cmp);
+    1.4826 * *median / 6f64.sqrt()
+}
 
 /// Strokes and cycles (from 1) for each point of `angle_deg`.
 ///
@@ -23,7 +40,10 @@ pub fn derive_strokes(angle_deg: &[f64]) -> (Vec<Stroke>, Vec<u32>) {
     }
     let (lo, hi) =
         angle_deg.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &a| (lo.min(a), hi.max(a)));
-    let threshold = (hi - lo) * REVERSAL_FRACTION;
+    let range = hi - lo;
+    let threshold = (range * REVERSAL_FRACTION)
+        .max(NOISE_MULTIPLE * angle_noise_sd(angle_deg))
+        .min(range * MAX_REVERSAL_FRACTION);
     if threshold <= 0.0 {
         return (strokes, cycles);
     }

@@ -226,8 +226,8 @@ pub struct SwitchingRules {
     pub reduced_after_accepted: u32,
     /// Probability defining the limit number (see the scheme file).
     pub reduced_limit_probability: f64,
-    /// Discontinue after this many consecutive lots on tightened inspection.
-    pub discontinue_after_tightened_lots: u32,
+    /// Discontinue when this many lots in a row of tightened inspection were not accepted.
+    pub discontinue_after_rejected_on_tightened: u32,
 }
 
 /// A loaded, validated sampling scheme.
@@ -444,7 +444,7 @@ impl Scheme {
             || s.tightened_within_lots < s.tightened_after_rejected
             || s.normal_after_accepted == 0
             || s.reduced_after_accepted == 0
-            || s.discontinue_after_tightened_lots == 0
+            || s.discontinue_after_rejected_on_tightened == 0
         {
             return Err(fail(
                 "switching",

@@ -59,6 +59,9 @@ pub struct SwitchingState {
     pub recent: Vec<LotOutcome>,
     /// Lots inspected since the current severity began.
     pub lots_on_severity: u32,
+    /// Lots not accepted since the current severity began.
+    #[serde(default)]
+    pub rejected_on_severity: u32,
     /// Inspection under the scheme is stopped until [`SwitchingState::resume`].
     pub discontinued: bool,
 }
@@ -92,6 +95,7 @@ impl SwitchingState {
             severity: Severity::Normal,
             recent: Vec::new(),
             lots_on_severity: 0,
+            rejected_on_severity: 0,
             discontinued: false,
         }
     }
@@ -100,6 +104,7 @@ impl SwitchingState {
         self.severity = severity;
         self.recent.clear();
         self.lots_on_severity = 0;
+        self.rejected_on_severity = 0;
     }
 
     /// After corrective action: inspection restarts on tightened (§8.3).
@@ -120,6 +125,9 @@ impl SwitchingState {
             return None;
         }
         self.lots_on_severity = self.lots_on_severity.saturating_add(1);
+        if !lot.accepted {
+            self.rejected_on_severity = self.rejected_on_severity.saturating_add(1);
+        }
         self.recent.push(lot.clone());
         let keep =
             rules.tightened_within_lots.max(rules.normal_after_accepted).max(rules.reduced_after_accepted)
@@ -166,7 +174,7 @@ impl SwitchingState {
                     self.switch(Severity::Normal);
                     return Some(Transition::TightenedToNormal);
                 }
-                if self.lots_on_severity >= rules.discontinue_after_tightened_lots {
+                if self.rejected_on_severity >= rules.discontinue_after_rejected_on_tightened {
                     self.discontinued = true;
                     return Some(Transition::Discontinue);
                 }
@@ -289,12 +297,15 @@ mod tests {
     }
 
     #[test]
-    fn long_tightened_runs_discontinue() {
-        // From memory: MIL-STD-105D/E §8.3: discontinue when 10 consecutive lots remain on tightened (count read from the scheme file)
+    fn rejections_on_tightened_discontinue() {
+        // From memory: MIL-STD-105E §8.3.4: when the cumulative number of lots not accepted in a
+        // sequence of consecutive lots on original tightened inspection reaches 5, stop (count from the scheme file)
         let mut s = SwitchingState { severity: Severity::Tightened, ..SwitchingState::new() };
-        let lots: Vec<_> = (0..10).map(|i| lot(i % 3 != 0, 2)).collect();
+        // Rejected, accepted, accepted, rejected … never five accepted in a row, five rejections by lot 9.
+        let lots: Vec<_> = (0..9).map(|i| lot(i % 2 != 0, 2)).collect();
         let t = feed(&mut s, &lots, &STEADY);
-        assert_eq!(t[9], Some(Transition::Discontinue));
+        assert_eq!(t[..8].iter().filter(|x| x.is_some()).count(), 0);
+        assert_eq!(t[8], Some(Transition::Discontinue));
         assert!(s.discontinued);
         assert_eq!(feed(&mut s, &[lot(true, 0)], &STEADY)[0], None);
         s.resume();

@@ -31,7 +31,7 @@ fn the_demo_shift_is_judged_part_by_part() {
     let (code, rows) = evaluate_json(&[shift.to_str().unwrap(), "--plant", plant.to_str().unwrap()]);
     // Two broken exports and the lot list are rejected, so the run says so.
     assert_eq!(code, 3);
-    assert_eq!(rows.len(), 166);
+    assert_eq!(rows.len(), 210);
     for key in [
         "test_id",
         "file",
@@ -56,7 +56,7 @@ fn the_demo_shift_is_judged_part_by_part() {
         assert!(rows[0].get(key).is_some(), "field {key} missing");
     }
     // The planted defects are found, and nothing else fails.
-    let high_friction = by_serial(&rows, "L2612-032-011");
+    let high_friction = by_serial(&rows, "L2612-032-006");
     assert_eq!(high_friction["verdict"], "fail");
     assert!(failing_characteristics(high_friction, "fail").contains(&"hysteresis".to_string()));
     for serial in ["L2612-040-007", "L2612-040-023", "L2612-040-041"] {
@@ -76,7 +76,7 @@ fn the_demo_shift_is_judged_part_by_part() {
     assert_eq!(failed.len(), 7, "{failed:?}");
     // The exec-converted rig's parts are judged like any other.
     let gantry = rows.iter().filter(|r| r["rig"] == "RIG-D").count();
-    assert_eq!(gantry, 13);
+    assert_eq!(gantry, 27);
 }
 
 #[test]
@@ -85,7 +85,7 @@ fn a_spec_file_judges_every_export_and_the_window_can_change() {
     let lot = sample_shift_dir().join("rig-a");
     let (code, rows) = evaluate_json(&[lot.to_str().unwrap(), "--spec", spec.to_str().unwrap()]);
     assert_eq!(code, 0);
-    assert_eq!(rows.len(), 32);
+    assert_eq!(rows.len(), 50);
     assert!(rows.iter().all(|r| r["verdict"] == "pass"));
     let rate = rows[0]["rate_nmm_per_deg"].as_f64().unwrap();
     // The spec's rate is 29.2 N·mm/° ±8 %.
@@ -107,7 +107,7 @@ fn without_a_spec_metrics_come_without_verdicts() {
     let lot = sample_shift_dir().join("rig-d");
     let (code, rows) = evaluate_json(&[lot.to_str().unwrap()]);
     assert_eq!(code, 0);
-    assert_eq!(rows.len(), 13);
+    assert_eq!(rows.len(), 27);
     assert!(rows.iter().all(|r| r["verdict"].is_null() && r["findings"].as_array().unwrap().is_empty()));
     assert!(rows.iter().all(|r| r["rate_nmm_per_deg"].as_f64().is_some()));
 }
@@ -162,7 +162,7 @@ fn the_table_ends_with_counts_and_the_caution() {
         .output()
         .unwrap();
     let stdout = String::from_utf8_lossy(&output.stdout);
-    assert!(stdout.contains("69 tests: 64 pass, 3 fail, 2 invalid; 1 files rejected."), "{stdout}");
+    assert!(stdout.contains("81 tests: 76 pass, 3 fail, 2 invalid; 1 files rejected."), "{stdout}");
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert!(stderr.contains("customer's drawing"), "{stderr}");
     assert!(stderr.contains("L2612-041-018.dat, line"), "{stderr}");

@@ -9,14 +9,15 @@ use anyhow::{bail, Context, Result};
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use output::{print_rows, Table};
 use std::collections::BTreeMap;
+use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use twistlot_ingest::{expand_inputs, flag_duplicate_serials, ingest_each, FileStatus, FileSummary};
 use twistlot_model::plugin::RigFormatManifest;
 use twistlot_model::{Manifest, PartSpec};
 use twistlot_pipeline::{
-    check_manifests, evaluate_files, shipped_plugins_dir, EvaluateOptions, Evaluated, Plant, PluginCatalog,
-    SpecLibrary, SpecSource,
+    check_manifests, evaluate_files, run_shift, shipped_plugins_dir, EvaluateOptions, Evaluated, Plant,
+    PluginCatalog, SpecLibrary, SpecSource,
 };
 use twistlot_sampling::{design_attribute, design_variables, InspectionLevel, LimitKind, Severity};
 use twistlot_stats::CheckSet;
@@ -44,6 +45,9 @@ enum Command {
     /// Read rig exports (files or folders) into canonical curves and account for every file.
     #[command(after_help = EXIT_HELP)]
     Ingest(IngestArgs),
+    /// Run a whole shift: read every export, judge every part, decide every listed lot, write the reports.
+    #[command(after_help = EXIT_HELP)]
+    Shift(ShiftArgs),
     /// Measure each tested part's curve and judge it against its part spec.
     #[command(after_help = EXIT_HELP)]
     Evaluate(EvaluateArgs),
@@ -93,6 +97,19 @@ struct IngestArgs {
     /// How to print the result.
     #[arg(long, value_enum, default_value = "table")]
     format: OutputFormat,
+}
+
+#[derive(Args)]
+struct ShiftArgs {
+    /// The shift folder: the rigs' exports and the shift's `lots.yaml`.
+    #[arg(value_name = "SHIFT_DIR")]
+    shift_dir: PathBuf,
+    /// Plant config (default: the first `plant.yaml` in the shift folder or a folder above it).
+    #[arg(long, value_name = "FILE")]
+    plant: Option<PathBuf>,
+    /// Where reports go (default: `out/<shift folder name>`).
+    #[arg(long, value_name = "DIR")]
+    out: Option<PathBuf>,
 }
 
 #[derive(Args)]
@@ -231,9 +248,16 @@ enum SynthCommand {
 }
 
 fn main() -> ExitCode {
+    // Output piped into `head` should end quietly, as other command-line tools do.
+    #[cfg(unix)]
+    // SAFETY: restoring the default SIGPIPE action before any thread starts has no other effect.
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Ingest(args) => ingest(args),
+        Command::Shift(args) => shift(args),
         Command::Evaluate(args) => evaluate(args),
         Command::Sampling(args) => sampling(args),
         Command::Plugins(args) => plugins(args),
@@ -325,6 +349,87 @@ fn ingest(args: IngestArgs) -> Result<ExitCode> {
     Ok(if rejected > 0 { ExitCode::from(EXIT_SOME_REJECTED) } else { ExitCode::SUCCESS })
 }
 
+/// The first ground that ends in the lot's disposition (the one that decided it).
+fn deciding_ground(grounds: &[String], disposition: &str) -> String {
+    grounds
+        .iter()
+        .find(|g| g.contains(&format!(": {disposition}")) || g.starts_with(disposition))
+        .or(grounds.first())
+        .cloned()
+        .unwrap_or_default()
+}
+
+fn find_plant(shift_dir: &Path) -> Option<PathBuf> {
+    let start = std::fs::canonicalize(shift_dir).ok()?;
+    start.ancestors().map(|dir| dir.join("plant.yaml")).find(|p| p.is_file())
+}
+
+fn shift(args: ShiftArgs) -> Result<ExitCode> {
+    if !args.shift_dir.is_dir() {
+        bail!("shift folder {} does not exist", args.shift_dir.display());
+    }
+    let plant_path = match args.plant.clone().or_else(|| find_plant(&args.shift_dir)) {
+        Some(path) => path,
+        None => bail!(
+            "no plant config: give --plant FILE (no plant.yaml in {} or above it)",
+            args.shift_dir.display()
+        ),
+    };
+    let plant = Plant::load(&plant_path)?;
+    let shift_name =
+        args.shift_dir.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_else(|| "shift".into());
+    let out = args.out.clone().unwrap_or_else(|| PathBuf::from("out").join(&shift_name));
+    let bar = if std::io::stderr().is_terminal() {
+        indicatif::ProgressBar::new(0).with_style(
+            indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} exports {elapsed}")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        )
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    let outcome = run_shift(&plant, &args.shift_dir, &out, &|done, total| {
+        bar.set_length(total as u64);
+        bar.set_position(done as u64);
+    })?;
+    bar.finish_and_clear();
+    let summary = &outcome.summary;
+    println!(
+        "shift {} ({}): {} exports, {} read, {} rejected",
+        summary.shift,
+        plant.name,
+        summary.files_total,
+        summary.files_accepted,
+        summary.files_rejected.len()
+    );
+    let mut table =
+        Table::new(&["lot", "part", "quantity", "tested", "failed", "invalid", "disposition", "grounds"]);
+    for lot in &summary.lots {
+        table.row(vec![
+            lot.lot.clone(),
+            lot.part.clone(),
+            lot.quantity.to_string(),
+            lot.tested.to_string(),
+            lot.failed.to_string(),
+            lot.invalid.to_string(),
+            lot.disposition.to_uppercase(),
+            deciding_ground(&lot.grounds, &lot.disposition),
+        ]);
+    }
+    print_rows(&table, false);
+    for rejected in &summary.files_rejected {
+        println!("rejected: {}: {}", rejected.file, rejected.reason);
+    }
+    for unlisted in &summary.unlisted_tests {
+        println!("not on the lot list: {unlisted}");
+    }
+    for failure in &summary.sink_failures {
+        eprintln!("warning: {failure}");
+    }
+    println!("reports: {}", out.join("shift_summary.html").display());
+    eprintln!("{CAUTION} A lot is released only by the people the plant's procedures name, never by this tool alone.");
+    Ok(if summary.files_rejected.is_empty() { ExitCode::SUCCESS } else { ExitCode::from(EXIT_SOME_REJECTED) })
+}
+
 fn evaluate(args: EvaluateArgs) -> Result<ExitCode> {
     let plant = args.plant.as_deref().map(Plant::load).transpose()?;
     let mut folders = args.plugins.folders();
@@ -343,8 +448,9 @@ fn evaluate(args: EvaluateArgs) -> Result<ExitCode> {
         (None, None) => SpecSource::None,
     };
     let (files, missing) = expand_inputs(&args.paths);
-    let options = EvaluateOptions { window: args.window, rig_format: args.rig_format.clone() };
-    let results = evaluate_files(&files, &formats, &specs, &checks, &options);
+    let options =
+        EvaluateOptions { window: args.window, rig_format: args.rig_format.clone(), preview_points: 0 };
+    let results = evaluate_files(&files, &formats, &specs, &checks, &options, &|| {});
     let mut tests = Vec::new();
     let mut rejected: Vec<twistlot_ingest::IngestError> = missing;
     for result in results {

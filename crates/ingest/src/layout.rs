@@ -111,7 +111,7 @@ impl Context<'_> {
         if let Some(position) = pick.position {
             let label = header
                 .and_then(|(cells, _)| cells.get(position - 1).map(|c| c.to_string()))
-                .unwrap_or_else(|| format!("field {position}"));
+                .unwrap_or_else(|| format!("{role} (field {position})"));
             return Ok(Field { index: position - 1, label });
         }
         let name = pick.name.as_deref().unwrap_or_default();
@@ -356,7 +356,7 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
                 Some(number),
                 Some(missing),
                 format!(
-                    "{what} has {} field(s) but the `{missing}` column is field {}",
+                    "{what} has {} field(s), but the `{missing}` column needs field {}",
                     cells.len(),
                     missing_index + 1
                 ),

@@ -28,6 +28,27 @@ pub struct EvaluateOptions {
     pub window: Option<[f64; 2]>,
     /// Read every file with this rig format.
     pub rig_format: Option<String>,
+    /// Keep a thinned copy of each curve with at most this many points (0: none), for charts.
+    pub preview_points: usize,
+}
+
+/// A thinned copy of a test's curve, for charts.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct CurvePreview {
+    /// Angles, degrees.
+    pub angle_deg: Vec<f64>,
+    /// Torques, N·mm.
+    pub torque_nmm: Vec<f64>,
+}
+
+impl CurvePreview {
+    fn thinned(curve: &twistlot_model::CurveData, max_points: usize) -> CurvePreview {
+        let step = curve.len().div_ceil(max_points.max(1)).max(1);
+        CurvePreview {
+            angle_deg: curve.angle_deg.iter().step_by(step).copied().collect(),
+            torque_nmm: curve.torque_nmm.iter().step_by(step).copied().collect(),
+        }
+    }
 }
 
 /// One test's result.
@@ -60,6 +81,9 @@ pub struct TestResult {
     pub verdict: Option<Verdict>,
     /// Findings per characteristic.
     pub findings: Vec<Finding>,
+    /// Thinned curve for charts, when asked for.
+    #[serde(skip)]
+    pub preview: Option<CurvePreview>,
 }
 
 /// What became of one input file.
@@ -71,15 +95,29 @@ pub enum Evaluated {
     Rejected(IngestError),
 }
 
-/// Evaluates every file.
+/// Evaluates every file; `progress` is called once per file as it finishes.
 pub fn evaluate_files(
     files: &[PathBuf],
     formats: &FormatSet,
     specs: &SpecSource,
     checks: &CheckSet,
     options: &EvaluateOptions,
+    progress: &(dyn Fn() + Sync),
 ) -> Vec<Evaluated> {
     ingest_each(files, formats, options.rig_format.as_deref(), |outcome| {
+        let result = evaluate_one(outcome, specs, checks, options);
+        progress();
+        result
+    })
+}
+
+fn evaluate_one(
+    outcome: twistlot_ingest::FileOutcome,
+    specs: &SpecSource,
+    checks: &CheckSet,
+    options: &EvaluateOptions,
+) -> Evaluated {
+    {
         let export = match outcome.result {
             Ok(export) => export,
             Err(err) => return Evaluated::Rejected(err),
@@ -159,6 +197,8 @@ pub fn evaluate_files(
             metrics,
             verdict,
             findings,
+            preview: (options.preview_points > 0)
+                .then(|| CurvePreview::thinned(&curve, options.preview_points)),
         }))
-    })
+    }
 }

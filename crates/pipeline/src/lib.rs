@@ -12,7 +12,9 @@
 pub mod evaluate;
 pub mod plant;
 pub mod plugins;
+pub mod shift;
 
 pub use evaluate::{evaluate_files, EvaluateOptions, Evaluated, SpecSource, TestResult};
 pub use plant::{Plant, PlantError, SpecLibrary};
 pub use plugins::{check_manifests, shipped_plugins_dir, PluginCatalog, PluginEntry};
+pub use shift::{run_shift, ShiftError, ShiftOutcome, ShiftSummaryJson};

@@ -20,6 +20,8 @@ struct PlantFile {
     history: Option<PathBuf>,
     #[serde(default)]
     rigs: Vec<RigEntry>,
+    #[serde(default)]
+    sinks: Vec<String>,
 }
 
 /// A rig the plant runs.
@@ -52,6 +54,8 @@ pub struct Plant {
     pub history_dir: Option<PathBuf>,
     /// Rigs.
     pub rigs: Vec<RigEntry>,
+    /// Sink plugins every decided lot is sent to, by name.
+    pub sinks: Vec<String>,
 }
 
 /// Why the plant config or a spec did not load.
@@ -111,6 +115,7 @@ impl Plant {
             templates_dir: file.templates.as_deref().map(resolve),
             history_dir: file.history.as_deref().map(resolve),
             rigs: file.rigs,
+            sinks: file.sinks,
         })
     }
 }

@@ -245,7 +245,10 @@ pub fn generate_shift(
             model.friction_share = 0.008 + rng.gen_range(0.0..0.006);
             for planted in lot.defects.iter().filter(|d| d.part_index == index) {
                 match planted.defect {
-                    Defect::HighFriction => model.friction_share *= 8.0,
+                    // Leg-to-arbor drag: a roughly constant torque on each stroke.
+                    Defect::HighFriction => {
+                        model.friction_nmm += 0.025 * model.rate_nmm_per_deg * model.max_angle_deg
+                    }
                     Defect::FreeAngleOff { by_deg } => model.free_angle_deg += by_deg,
                     Defect::StopsShort { at_deg } => model.max_angle_deg = at_deg,
                     Defect::CoilBind { from_deg } => {

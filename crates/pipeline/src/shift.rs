@@ -367,9 +367,8 @@ fn sanitize(lot: &str) -> String {
 }
 
 fn generated_stamp() -> String {
-    let seconds =
-        std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map(|d| d.as_secs()).unwrap_or(0);
-    format!("{seconds} s after 1970-01-01T00:00Z (UTC)")
+    let now = time::OffsetDateTime::now_utc();
+    now.format(&time::format_description::well_known::Rfc3339).unwrap_or_else(|_| now.unix_timestamp().to_string())
 }
 
 /// Everything decided about one lot.

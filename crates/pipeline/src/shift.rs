@@ -368,8 +368,12 @@ fn sanitize(lot: &str) -> String {
 
 fn generated_stamp() -> String {
     let now = time::OffsetDateTime::now_utc();
-    now.format(&time::format_description::well_known::Rfc3339).unwrap_or_else(|_| now.unix_timestamp().to_string())
+    now.format(&time::format_description::well_known::Rfc3339)
+        .unwrap_or_else(|_| now.unix_timestamp().to_string())
 }
+
+/// OC points (percent defective, probability of acceptance) and the lot's own point.
+type OcChart = (Vec<(f64, f64)>, Option<(f64, f64)>);
 
 /// Everything decided about one lot.
 struct DecidedLot {
@@ -379,7 +383,7 @@ struct DecidedLot {
     plan_view: report::PlanView,
     rate: Option<Capability>,
     statistics: Vec<(String, String, Limits, Capability)>,
-    oc: Option<(Vec<(f64, f64)>, Option<(f64, f64)>)>,
+    oc: Option<OcChart>,
     spec: Option<(PartSpec, PathBuf)>,
 }
 

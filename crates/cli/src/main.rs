@@ -709,6 +709,7 @@ fn rig_format_manifests(catalog: &PluginCatalog) -> BTreeMap<String, RigFormatMa
 }
 
 fn write_files(out: &Path, files: &[twistlot_synth::GeneratedFile]) -> Result<()> {
+    std::fs::create_dir_all(out).with_context(|| format!("cannot create {}", out.display()))?;
     for file in files {
         let path = out.join(&file.relative_path);
         if let Some(parent) = path.parent() {

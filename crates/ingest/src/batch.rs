@@ -96,7 +96,7 @@ pub struct FileSummary {
     pub rig_format: Option<String>,
     /// Number of points read.
     pub points: usize,
-    /// Metadata as key → value, including `source_file` and `content_hash`.
+    /// Metadata as key → value, including `content_hash` (the path is `file`).
     pub metadata: BTreeMap<String, String>,
     /// Warnings that did not stop the file being read.
     pub warnings: Vec<String>,

@@ -150,7 +150,7 @@ impl FormatSet {
                 RejectKind::Ambiguous,
                 file,
                 format!(
-                    "rig formats {} all recognise this file; choose one with --rig-format",
+                    "rig formats {} each recognise this file; choose one with --rig-format",
                     many.iter().map(|f| format!("`{}`", f.name)).collect::<Vec<_>>().join(" and ")
                 ),
             )),

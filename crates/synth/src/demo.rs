@@ -183,6 +183,9 @@ pub enum DemoError {
     /// Writing a layout failed.
     #[error(transparent)]
     Write(#[from] WriteError),
+    /// The bench data set was asked for a shape it cannot have.
+    #[error("{0}")]
+    BenchShape(String),
 }
 
 /// File extension each demo format uses.
@@ -326,10 +329,19 @@ pub fn generate_bench(
     points: usize,
     formats: &[RigFormatManifest],
 ) -> Result<Vec<GeneratedFile>, DemoError> {
+    // One pre-cycle and the evaluated cycle: four strokes of equal length.
+    if points < 8 || points % 4 != 0 {
+        return Err(DemoError::BenchShape(format!(
+            "--points must be a multiple of 4 and at least 8 (two cycles of two strokes), got {points}"
+        )));
+    }
+    if formats.is_empty() {
+        return Err(DemoError::BenchShape("no declarative rig formats to write the bench data in".into()));
+    }
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
     let mut out = Vec::with_capacity(files);
     for index in 0..files {
-        let manifest = &formats[index % formats.len().max(1)];
+        let manifest = &formats[index % formats.len()];
         let mut model = SpringModel::new(rng.gen_range(1.0..30.0), rng.gen_range(-2.0..4.0), 90.0);
         model.pre_cycles = 1;
         model.dwell_points = 0;

@@ -84,13 +84,23 @@ impl RigFormat {
                 return false;
             }
         }
-        let lines: Vec<&str> = head.lines().take(self.detect.within_lines).collect();
-        self.detect.contains.iter().all(|needle| lines.iter().any(|line| line.contains(needle.as_str())))
+        // Needles are single-line strings, so searching the first N lines as one slice is the same.
+        let scope = first_lines(head, self.detect.within_lines);
+        self.detect.contains.iter().all(|needle| scope.contains(needle.as_str()))
     }
 
     /// True for exec converters.
     pub fn is_exec(&self) -> bool {
         matches!(self.reader, Reader::Exec { .. })
+    }
+}
+
+/// The first `count` lines of `text` (with their line breaks).
+fn first_lines(text: &str, count: usize) -> &str {
+    match memchr::memchr_iter(b'\n', text.as_bytes()).nth(count.saturating_sub(1)) {
+        Some(end) if count > 0 => &text[..end],
+        _ if count == 0 => "",
+        _ => text,
     }
 }
 
@@ -134,7 +144,8 @@ impl FormatSet {
 
     /// Recognises the file: exactly one format must claim it.
     pub fn detect(&self, file: &str, bytes: &[u8]) -> Result<&RigFormat, IngestError> {
-        let head = head_text(bytes);
+        let within = self.formats.iter().map(|f| f.detect.within_lines).max().unwrap_or(0);
+        let head = head_text(bytes, within);
         let claims: Vec<&RigFormat> = self.formats.iter().filter(|f| f.matches(file, &head)).collect();
         match claims.as_slice() {
             [one] => Ok(one),

@@ -27,6 +27,24 @@ pub struct RawCurve {
     pub cycle: Option<Vec<u32>>,
 }
 
+impl RawCurve {
+    /// Appends a quickly read row, converting to canonical units.
+    #[inline]
+    fn push_quick(&mut self, row: &QuickRow, angle_factor: f64, torque_factor: f64, seconds_per_unit: f64) {
+        self.angle_deg.push(row.angle * angle_factor);
+        self.torque_nmm.push(row.torque * torque_factor);
+        if let Some(t) = self.time_s.as_mut() {
+            t.push(row.time * seconds_per_unit);
+        }
+        if let (Some(s), Some(value)) = (self.stroke.as_mut(), row.stroke) {
+            s.push(value);
+        }
+        if let (Some(c), Some(value)) = (self.cycle.as_mut(), row.cycle) {
+            c.push(value);
+        }
+    }
+}
+
 struct Lines<'a> {
     text: &'a str,
     pos: usize,
@@ -55,6 +73,56 @@ fn trim_cell(cell: &str) -> &str {
     cell.strip_prefix('"').and_then(|c| c.strip_suffix('"')).unwrap_or(cell).trim()
 }
 
+/// Trims ASCII blanks and one pair of surrounding double quotes.
+#[inline]
+fn trim_cell_ascii(cell: &str) -> &str {
+    let cell = cell.trim_ascii();
+    match cell.strip_prefix('"').and_then(|c| c.strip_suffix('"')) {
+        Some(inner) => inner.trim_ascii(),
+        None => cell,
+    }
+}
+
+/// Splits a data row into at most `max` cells. One pass over the bytes: rows are
+/// short, so a plain loop beats setting up a vector search per delimiter. The
+/// delimiters are ASCII, so every cut falls on a character boundary.
+#[inline]
+fn split_row<'a>(line: &'a str, delimiter: Delimiter, max: usize, cells: &mut Vec<&'a str>) {
+    let bytes = line.as_bytes();
+    match delimiter {
+        Delimiter::Byte(byte) => {
+            let mut start = 0;
+            for (i, &b) in bytes.iter().enumerate() {
+                if b == byte {
+                    cells.push(&line[start..i]);
+                    if cells.len() == max {
+                        return;
+                    }
+                    start = i + 1;
+                }
+            }
+            cells.push(&line[start..]);
+        }
+        Delimiter::Whitespace => {
+            let mut i = 0;
+            let n = bytes.len();
+            while i < n && cells.len() < max {
+                while i < n && (bytes[i] == b' ' || bytes[i] == b'\t') {
+                    i += 1;
+                }
+                if i == n {
+                    break;
+                }
+                let start = i;
+                while i < n && bytes[i] != b' ' && bytes[i] != b'\t' {
+                    i += 1;
+                }
+                cells.push(&line[start..i]);
+            }
+        }
+    }
+}
+
 fn split_cells(line: &str, delimiter: Delimiter) -> Vec<&str> {
     match delimiter {
         Delimiter::Byte(byte) => line.split(byte as char).map(trim_cell).collect(),
@@ -72,6 +140,197 @@ fn bracketed_unit(cell: &str) -> Option<&str> {
     let open = cell.find(['[', '('])?;
     let close = cell[open..].find([']', ')'])? + open;
     Some(cell[open + 1..close].trim())
+}
+
+/// What a needed field of a data row holds.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Role {
+    Angle,
+    Torque,
+    Time,
+    Stroke,
+    Cycle,
+}
+
+/// One row read the quick way, in the file's units.
+#[derive(Default)]
+struct QuickRow {
+    angle: f64,
+    torque: f64,
+    time: f64,
+    stroke: Option<Stroke>,
+    cycle: Option<u32>,
+}
+
+/// The quick path for well-formed rows: one pass over the bytes, numbers parsed as
+/// their field ends, nothing allocated. Any surprise (quotes, a bad cell, a short
+/// row) returns `None` and the row goes through the general path, which gives the
+/// precise error, so both paths accept exactly the same rows.
+struct QuickReader {
+    /// Role per field position up to the last needed one.
+    slots: Vec<Option<Role>>,
+    delimiter: Delimiter,
+    decimal: u8,
+    load: Vec<u8>,
+    unload: Vec<u8>,
+}
+
+impl QuickReader {
+    #[inline]
+    fn read(&self, line: &[u8]) -> Option<QuickRow> {
+        let mut row = QuickRow::default();
+        let n = line.len();
+        let mut pos = 0;
+        let last = self.slots.len().checked_sub(1)?;
+        for (k, slot) in self.slots.iter().enumerate() {
+            let (start, end) = match self.delimiter {
+                Delimiter::Byte(d) => {
+                    let start = pos;
+                    while pos < n && line[pos] != d {
+                        pos += 1;
+                    }
+                    let end = pos;
+                    if pos < n {
+                        pos += 1;
+                    } else if k < last {
+                        return None;
+                    }
+                    (start, end)
+                }
+                Delimiter::Whitespace => {
+                    while pos < n && (line[pos] == b' ' || line[pos] == b'\t') {
+                        pos += 1;
+                    }
+                    let start = pos;
+                    while pos < n && line[pos] != b' ' && line[pos] != b'\t' {
+                        pos += 1;
+                    }
+                    if start == pos {
+                        return None;
+                    }
+                    (start, pos)
+                }
+            };
+            let field = &line[start..end];
+            let Some(role) = slot else { continue };
+            let cell = field.trim_ascii();
+            match role {
+                Role::Angle => row.angle = parse_decimal(cell, self.decimal).ok()?,
+                Role::Torque => row.torque = parse_decimal(cell, self.decimal).ok()?,
+                Role::Time => row.time = parse_decimal(cell, self.decimal).ok()?,
+                Role::Stroke => {
+                    row.stroke = Some(if cell.eq_ignore_ascii_case(&self.load) {
+                        Stroke::Load
+                    } else if cell.eq_ignore_ascii_case(&self.unload) {
+                        Stroke::Unload
+                    } else {
+                        return None;
+                    })
+                }
+                Role::Cycle => {
+                    if cell.is_empty() || cell.len() > 9 || !cell.iter().all(u8::is_ascii_digit) {
+                        return None;
+                    }
+                    let cycle = cell.iter().fold(0u32, |acc, &b| acc * 10 + u32::from(b - b'0'));
+                    row.cycle = Some(cycle).filter(|c| *c > 0);
+                    row.cycle?;
+                }
+            }
+        }
+        Some(row)
+    }
+}
+
+impl QuickReader {
+    /// Reads one whole row from the start of `data`, line break included, and says
+    /// how many bytes it took. Numbers are parsed straight from the bytes, so each
+    /// byte is looked at once. Rows without a final `\n` go the general way.
+    #[inline]
+    fn read_line(&self, data: &[u8]) -> Option<(QuickRow, usize)> {
+        let n = data.len();
+        let mut pos = 0;
+        let last = self.slots.len().checked_sub(1)?;
+        let mut row = QuickRow::default();
+        let (delimiter, whitespace) = match self.delimiter {
+            Delimiter::Byte(d) => (d, false),
+            Delimiter::Whitespace => (b' ', true),
+        };
+        // Blanks around a cell: spaces, and tabs unless tabs separate the cells.
+        let blank = |b: u8| b == b' ' || (b == b'\t' && (whitespace || delimiter != b'\t'));
+        for (k, slot) in self.slots.iter().enumerate() {
+            while pos < n && blank(data[pos]) {
+                pos += 1;
+            }
+            let start = pos;
+            let numeric = match slot {
+                Some(Role::Angle | Role::Torque | Role::Time) => {
+                    let (value, used) = crate::number::parse_decimal_prefix(&data[pos..], self.decimal)?;
+                    match slot {
+                        Some(Role::Angle) => row.angle = value,
+                        Some(Role::Torque) => row.torque = value,
+                        _ => row.time = value,
+                    }
+                    pos += used;
+                    true
+                }
+                _ => {
+                    while pos < n
+                        && !blank(data[pos])
+                        && !matches!(data[pos], b'\n' | b'\r')
+                        && data[pos] != delimiter
+                    {
+                        pos += 1;
+                    }
+                    false
+                }
+            };
+            let end = pos;
+            while pos < n && blank(data[pos]) {
+                pos += 1;
+            }
+            let at = *data.get(pos)?;
+            let row_ends = at == b'\n' || at == b'\r';
+            let next_field = if whitespace { pos > end && !row_ends } else { at == delimiter };
+            if !(row_ends || next_field) || (row_ends && k < last) || (!numeric && start == end && whitespace)
+            {
+                return None;
+            }
+            if next_field && !whitespace && k < last {
+                pos += 1;
+            }
+            if numeric {
+                continue;
+            }
+            let Some(role) = slot else { continue };
+            let cell = &data[start..end];
+            match role {
+                Role::Stroke => {
+                    row.stroke = Some(if cell.eq_ignore_ascii_case(&self.load) {
+                        Stroke::Load
+                    } else if cell.eq_ignore_ascii_case(&self.unload) {
+                        Stroke::Unload
+                    } else {
+                        return None;
+                    })
+                }
+                Role::Cycle => {
+                    if cell.is_empty() || cell.len() > 9 || !cell.iter().all(u8::is_ascii_digit) {
+                        return None;
+                    }
+                    let cycle = cell.iter().fold(0u32, |acc, &b| acc * 10 + u32::from(b - b'0'));
+                    row.cycle = Some(cycle).filter(|c| *c > 0);
+                    row.cycle?;
+                }
+                _ => {}
+            }
+        }
+        // The rest of the row (columns nobody needs) up to and including the line break.
+        let used = match data.get(pos) {
+            Some(b'\n') => pos + 1,
+            _ => pos + memchr::memchr(b'\n', &data[pos..])? + 1,
+        };
+        Some((row, used))
+    }
 }
 
 struct Field {
@@ -180,7 +439,12 @@ fn take_line<'a>(
 }
 
 /// Reads `text` (already decoded) with `layout`.
-pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Result<RawCurve, IngestError> {
+pub fn read_layout<'t>(
+    file: &str,
+    format: &str,
+    layout: &Layout,
+    text: &'t str,
+) -> Result<RawCurve, IngestError> {
     let cx = Context { file, format };
     let mut lines = Lines { text, pos: 0, number: 0 };
     let mut metadata: Vec<(String, String, usize)> = Vec::new();
@@ -290,14 +554,6 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
     let stroke_labels = columns.stroke.as_ref().map(|s| (s.load.clone(), s.unload.clone()));
 
     // Which fields each row needs, in field order.
-    #[derive(Clone, Copy)]
-    enum Role {
-        Angle,
-        Torque,
-        Time,
-        Stroke,
-        Cycle,
-    }
     let mut wanted: Vec<(usize, Role, &str)> = vec![
         (angle.index, Role::Angle, angle.label.as_str()),
         (torque.index, Role::Torque, torque.label.as_str()),
@@ -324,29 +580,35 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
         ..RawCurve::default()
     };
     let decimal = layout.decimal as u8;
+    let mut slots = vec![None; last_needed + 1];
+    for &(index, role, _) in &wanted {
+        slots[index] = Some(role);
+    }
+    let (load_label, unload_label) = stroke_labels.clone().unwrap_or_default();
+    let quick = QuickReader {
+        slots,
+        delimiter: layout.delimiter,
+        decimal,
+        load: load_label.into_bytes(),
+        unload: unload_label.into_bytes(),
+    };
     let mut cells: Vec<&str> = Vec::with_capacity(last_needed + 1);
-    while let Some((line, number, terminated)) = take_line(&mut pending, &mut lines) {
-        if line.trim().is_empty() {
-            continue;
+    let mut row = |raw: &mut RawCurve,
+                   line: &'t str,
+                   number: usize,
+                   terminated: bool|
+     -> Result<(), IngestError> {
+        let bytes = line.as_bytes();
+        if bytes.first().is_none_or(|b| b.is_ascii_whitespace()) && bytes.iter().all(u8::is_ascii_whitespace)
+        {
+            return Ok(());
+        }
+        if let Some(quick_row) = quick.read(bytes) {
+            raw.push_quick(&quick_row, angle_factor, torque_factor, seconds_per_unit);
+            return Ok(());
         }
         cells.clear();
-        match layout.delimiter {
-            Delimiter::Byte(byte) => {
-                let bytes = line.as_bytes();
-                let mut start = 0;
-                for end in memchr::memchr_iter(byte, bytes) {
-                    cells.push(&line[start..end]);
-                    start = end + 1;
-                    if cells.len() > last_needed {
-                        break;
-                    }
-                }
-                if cells.len() <= last_needed {
-                    cells.push(&line[start..]);
-                }
-            }
-            Delimiter::Whitespace => cells.extend(line.split_ascii_whitespace().take(last_needed + 1)),
-        }
+        split_row(line, layout.delimiter, last_needed + 1, &mut cells);
         if cells.len() <= last_needed {
             let (missing_index, missing) =
                 wanted.iter().find(|w| w.0 >= cells.len()).map(|w| (w.0, w.2)).unwrap_or((last_needed, ""));
@@ -363,7 +625,7 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
             ));
         }
         for &(index, role, label) in &wanted {
-            let cell = trim_cell(cells[index]);
+            let cell = trim_cell_ascii(cells[index]);
             match role {
                 Role::Angle | Role::Torque | Role::Time => {
                     let value = parse_decimal(cell.as_bytes(), decimal).map_err(|err| {
@@ -428,6 +690,24 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
                     }
                 }
             }
+        }
+        Ok(())
+    };
+    if let Some((line, number, terminated)) = pending.take() {
+        row(&mut raw, line, number, terminated)?;
+    }
+    let bytes = text.as_bytes();
+    loop {
+        // Well-formed rows take the quick path; anything else (blank lines, a bad
+        // cell, the last line without a break) goes through `row` for its error.
+        while let Some((quick_row, used)) = quick.read_line(&bytes[lines.pos..]) {
+            raw.push_quick(&quick_row, angle_factor, torque_factor, seconds_per_unit);
+            lines.pos += used;
+            lines.number += 1;
+        }
+        match lines.next_line() {
+            Some((line, number, terminated)) => row(&mut raw, line, number, terminated)?,
+            None => break,
         }
     }
     if raw.angle_deg.is_empty() {

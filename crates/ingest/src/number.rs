@@ -20,59 +20,39 @@ const POW10: [f64; 23] = [
     1e19, 1e20, 1e21, 1e22,
 ];
 
+/// Accumulates decimal digits from `cell[i..]`; returns the new position.
+#[inline(always)]
+fn digits(cell: &[u8], mut i: usize, mantissa: &mut u64) -> usize {
+    while let Some(&byte) = cell.get(i) {
+        let digit = byte.wrapping_sub(b'0');
+        if digit > 9 {
+            break;
+        }
+        *mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(digit));
+        i += 1;
+    }
+    i
+}
+
 /// Parses one cell (already trimmed) with the given decimal separator.
+#[inline(always)]
 pub fn parse_decimal(cell: &[u8], decimal: u8) -> Result<f64, NumberError> {
-    let mut i = 0;
     let n = cell.len();
-    let negative = match cell.first() {
-        Some(b'-') => {
-            i = 1;
-            true
-        }
-        Some(b'+') => {
-            i = 1;
-            false
-        }
-        _ => false,
-    };
+    let negative = cell.first() == Some(&b'-');
+    let mut i = usize::from(matches!(cell.first(), Some(b'-' | b'+')));
     let mut mantissa: u64 = 0;
-    let mut digits = 0u32;
+    let int_start = i;
+    i = digits(cell, i, &mut mantissa);
+    let mut total_digits = i - int_start;
     let mut exponent: i32 = 0;
-    let mut any_digit = false;
-    while i < n && cell[i].is_ascii_digit() {
-        any_digit = true;
-        if mantissa == 0 && cell[i] == b'0' {
-            i += 1;
-            continue;
-        }
-        if digits < 19 {
-            mantissa = mantissa * 10 + u64::from(cell[i] - b'0');
-            digits += 1;
-        } else {
-            return slow_path(cell, decimal);
-        }
-        i += 1;
-    }
     if i < n && cell[i] == decimal {
-        i += 1;
-        while i < n && cell[i].is_ascii_digit() {
-            any_digit = true;
-            if mantissa == 0 && cell[i] == b'0' {
-                exponent -= 1;
-                i += 1;
-                continue;
-            }
-            if digits < 19 {
-                mantissa = mantissa * 10 + u64::from(cell[i] - b'0');
-                digits += 1;
-                exponent -= 1;
-            } else {
-                return slow_path(cell, decimal);
-            }
-            i += 1;
-        }
+        let frac_start = i + 1;
+        i = digits(cell, frac_start, &mut mantissa);
+        total_digits += i - frac_start;
+        exponent = -((i - frac_start) as i32);
     }
-    if !any_digit {
+    // 19 digits always fit a u64; more (or none) go the careful way.
+    if total_digits == 0 || total_digits > 19 {
         return slow_path(cell, decimal);
     }
     if i < n && (cell[i] == b'e' || cell[i] == b'E') {
@@ -96,7 +76,8 @@ pub fn parse_decimal(cell: &[u8], decimal: u8) -> Result<f64, NumberError> {
     if i != n {
         return Err(NumberError::NotANumber);
     }
-    if digits > 15 || !(-22..=22).contains(&exponent) {
+    // Clinger's fast path: an exactly representable mantissa and power of ten.
+    if mantissa > (1u64 << 53) || !(-22..=22).contains(&exponent) {
         return slow_path(cell, decimal);
     }
     let mut value = mantissa as f64;
@@ -106,6 +87,37 @@ pub fn parse_decimal(cell: &[u8], decimal: u8) -> Result<f64, NumberError> {
         value /= POW10[(-exponent) as usize];
     }
     Ok(if negative { -value } else { value })
+}
+
+/// Parses a plain decimal (`[-+]digits[.digits]`) at the start of `bytes` and says
+/// how many bytes it took; `None` for anything else (exponents, long mantissas,
+/// no digits), which the caller then reads the careful way. The result equals
+/// [`parse_decimal`] on the same bytes.
+#[inline(always)]
+pub fn parse_decimal_prefix(bytes: &[u8], decimal: u8) -> Option<(f64, usize)> {
+    let n = bytes.len();
+    let negative = bytes.first() == Some(&b'-');
+    let mut i = usize::from(matches!(bytes.first(), Some(b'-' | b'+')));
+    let mut mantissa: u64 = 0;
+    let int_start = i;
+    i = digits(bytes, i, &mut mantissa);
+    let mut total_digits = i - int_start;
+    let mut exponent: i32 = 0;
+    if i < n && bytes[i] == decimal {
+        let frac_start = i + 1;
+        i = digits(bytes, frac_start, &mut mantissa);
+        total_digits += i - frac_start;
+        exponent = -((i - frac_start) as i32);
+    }
+    // What follows (a delimiter, or anything else such as an exponent) is the caller's to judge.
+    if total_digits == 0 || total_digits > 19 || mantissa > (1u64 << 53) || exponent < -22 {
+        return None;
+    }
+    let mut value = mantissa as f64;
+    if exponent < 0 {
+        value /= POW10[(-exponent) as usize];
+    }
+    Some((if negative { -value } else { value }, i))
 }
 
 fn slow_path(cell: &[u8], decimal: u8) -> Result<f64, NumberError> {
@@ -172,6 +184,15 @@ mod tests {
     }
 
     proptest! {
+        #[test]
+        fn the_prefix_parser_agrees_with_the_whole_cell_parser(value in -1e6f64..1e6, places in 0usize..8, tail in "[,;\t \n]?") {
+            let text = format!("{value:.places$}");
+            let cell = format!("{text}{tail}");
+            let (parsed, used) = parse_decimal_prefix(cell.as_bytes(), b'.').unwrap();
+            prop_assert_eq!(used, text.len());
+            prop_assert_eq!(Ok(parsed), parse_decimal(text.as_bytes(), b'.'));
+        }
+
         // The fast path must agree bit for bit with the standard library's parser.
         #[test]
         fn agrees_with_std_on_fixed_notation(value in -1e7f64..1e7, places in 0usize..9) {

@@ -132,13 +132,14 @@ pub fn build_frame(test_id: &str, raw: RawCurve) -> PolarsResult<DataFrame> {
     let mut columns = vec![
         Column::new_scalar(column::TEST_ID.into(), Scalar::from(PlSmallStr::from_str(test_id)), n),
         Column::new(column::POINT.into(), (0..n as u32).collect::<Vec<u32>>()),
-        Column::new(column::ANGLE_DEG.into(), raw.angle_deg),
-        Column::new(column::TORQUE_NMM.into(), raw.torque_nmm),
+        // from_vec moves the buffers into the frame instead of copying them.
+        Float64Chunked::from_vec(column::ANGLE_DEG.into(), raw.angle_deg).into_series().into(),
+        Float64Chunked::from_vec(column::TORQUE_NMM.into(), raw.torque_nmm).into_series().into(),
         Column::new(column::STROKE.into(), stroke.iter().map(|s| s.as_str()).collect::<Vec<&str>>()),
-        Column::new(column::CYCLE.into(), cycle),
+        UInt32Chunked::from_vec(column::CYCLE.into(), cycle).into_series().into(),
     ];
     if let Some(time) = raw.time_s {
-        columns.push(Column::new(column::TIME_S.into(), time));
+        columns.push(Float64Chunked::from_vec(column::TIME_S.into(), time).into_series().into());
     }
     DataFrame::new(n, columns)
 }

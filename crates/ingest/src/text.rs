@@ -7,6 +7,8 @@ use twistlot_model::plugin::TextEncoding;
 const BOM: &[u8] = b"\xEF\xBB\xBF";
 /// How many leading bytes are inspected to tell text from binary.
 const SNIFF_BYTES: usize = 8192;
+/// How many leading bytes are counted for control characters.
+const CONTROL_SAMPLE_BYTES: usize = 2048;
 
 /// Refuses empty files and binary content before any plugin looks at them.
 pub fn check_text_like(file: &str, bytes: &[u8]) -> Result<(), IngestError> {
@@ -15,8 +17,10 @@ pub fn check_text_like(file: &str, bytes: &[u8]) -> Result<(), IngestError> {
         return Err(IngestError::file(RejectKind::Empty, file, "the file is empty"));
     }
     let head = &body[..body.len().min(SNIFF_BYTES)];
-    let control = head.iter().filter(|&&b| b < 0x20 && !matches!(b, b'\t' | b'\n' | b'\r' | 0x0c)).count();
-    if head.contains(&0) || control * 20 > head.len() {
+    // Text exports have no NUL at all; other control bytes are counted over a shorter stretch.
+    let sample = &head[..head.len().min(CONTROL_SAMPLE_BYTES)];
+    let control = sample.iter().filter(|&&b| b < 0x20 && !matches!(b, b'\t' | b'\n' | b'\r' | 0x0c)).count();
+    if memchr::memchr(0, head).is_some() || control * 20 > sample.len() {
         return Err(IngestError::file(
             RejectKind::Binary,
             file,
@@ -26,10 +30,13 @@ pub fn check_text_like(file: &str, bytes: &[u8]) -> Result<(), IngestError> {
     Ok(())
 }
 
-/// The first bytes as text, for format detection (lossy: signatures are ASCII).
-pub fn head_text(bytes: &[u8]) -> Cow<'_, str> {
+/// The first `lines` lines (at most 8 KiB) as text, for format detection (lossy:
+/// signatures are ASCII, and a Windows-1252 byte must not hide them).
+pub fn head_text(bytes: &[u8], lines: usize) -> Cow<'_, str> {
     let body = bytes.strip_prefix(BOM).unwrap_or(bytes);
-    String::from_utf8_lossy(&body[..body.len().min(SNIFF_BYTES)])
+    let body = &body[..body.len().min(SNIFF_BYTES)];
+    let end = memchr::memchr_iter(b'\n', body).nth(lines).map(|p| p + 1).unwrap_or(body.len());
+    String::from_utf8_lossy(&body[..end])
 }
 
 /// Decodes the whole file in the layout's encoding.

@@ -273,10 +273,27 @@ characteristics:
         curve_metrics(&law.curve(), &options).unwrap()
     }
 
+    /// The shipped torque-ratio check, opened to every part (it ships limited to one).
+    fn torque_ratio_for_any_part() -> CheckManifest {
+        let mut check = plugin("torque-ratio.yaml");
+        check.parts.clear();
+        check
+    }
+
+    #[test]
+    fn the_shipped_torque_ratio_skips_parts_it_does_not_name() {
+        let spec = PartSpec::from_yaml("ts100.yaml", SPEC).unwrap();
+        let check = plugin("torque-ratio.yaml");
+        assert!(!check.parts.contains(&spec.part), "the shipped check names {:?}", check.parts);
+        let set = CheckSet::new(std::slice::from_ref(&check)).unwrap();
+        let m = metrics_for(&Law::new(4.0, -10.0), &spec, std::slice::from_ref(&check));
+        assert!(set.evaluate(&m, &spec).is_empty());
+    }
+
     #[test]
     fn shipped_torque_ratio_passes_a_linear_spring_and_fails_an_offset_one() {
         let spec = PartSpec::from_yaml("ts100.yaml", SPEC).unwrap();
-        let checks = vec![plugin("torque-ratio.yaml")];
+        let checks = vec![torque_ratio_for_any_part()];
         let set = CheckSet::new(&checks).unwrap();
         // Free angle 0: M(60)/M(30) = 2 exactly.
         let m = metrics_for(&Law::new(4.0, 0.0), &spec, &checks);
@@ -309,7 +326,7 @@ characteristics:
     #[test]
     fn a_missing_metric_is_invalid_not_pass() {
         let spec = PartSpec::from_yaml("ts100.yaml", SPEC).unwrap();
-        let checks = vec![plugin("torque-ratio.yaml"), plugin("tight-hysteresis.yaml")];
+        let checks = vec![torque_ratio_for_any_part(), plugin("tight-hysteresis.yaml")];
         let set = CheckSet::new(&checks).unwrap();
         // The part stops at 50°: no torque at 60°, no hysteresis at 45° without unloading.
         let law = Law { max_deg: 50.0, ..Law::new(4.0, 0.0) };

@@ -330,7 +330,7 @@ pub fn generate_bench(
     formats: &[RigFormatManifest],
 ) -> Result<Vec<GeneratedFile>, DemoError> {
     // One pre-cycle and the evaluated cycle: four strokes of equal length.
-    if points < 8 || points % 4 != 0 {
+    if points < 8 || !points.is_multiple_of(4) {
         return Err(DemoError::BenchShape(format!(
             "--points must be a multiple of 4 and at least 8 (two cycles of two strokes), got {points}"
         )));

@@ -176,72 +176,6 @@ struct QuickReader {
 }
 
 impl QuickReader {
-    #[inline]
-    fn read(&self, line: &[u8]) -> Option<QuickRow> {
-        let mut row = QuickRow::default();
-        let n = line.len();
-        let mut pos = 0;
-        let last = self.slots.len().checked_sub(1)?;
-        for (k, slot) in self.slots.iter().enumerate() {
-            let (start, end) = match self.delimiter {
-                Delimiter::Byte(d) => {
-                    let start = pos;
-                    while pos < n && line[pos] != d {
-                        pos += 1;
-                    }
-                    let end = pos;
-                    if pos < n {
-                        pos += 1;
-                    } else if k < last {
-                        return None;
-                    }
-                    (start, end)
-                }
-                Delimiter::Whitespace => {
-                    while pos < n && (line[pos] == b' ' || line[pos] == b'\t') {
-                        pos += 1;
-                    }
-                    let start = pos;
-                    while pos < n && line[pos] != b' ' && line[pos] != b'\t' {
-                        pos += 1;
-                    }
-                    if start == pos {
-                        return None;
-                    }
-                    (start, pos)
-                }
-            };
-            let field = &line[start..end];
-            let Some(role) = slot else { continue };
-            let cell = field.trim_ascii();
-            match role {
-                Role::Angle => row.angle = parse_decimal(cell, self.decimal).ok()?,
-                Role::Torque => row.torque = parse_decimal(cell, self.decimal).ok()?,
-                Role::Time => row.time = parse_decimal(cell, self.decimal).ok()?,
-                Role::Stroke => {
-                    row.stroke = Some(if cell.eq_ignore_ascii_case(&self.load) {
-                        Stroke::Load
-                    } else if cell.eq_ignore_ascii_case(&self.unload) {
-                        Stroke::Unload
-                    } else {
-                        return None;
-                    })
-                }
-                Role::Cycle => {
-                    if cell.is_empty() || cell.len() > 9 || !cell.iter().all(u8::is_ascii_digit) {
-                        return None;
-                    }
-                    let cycle = cell.iter().fold(0u32, |acc, &b| acc * 10 + u32::from(b - b'0'));
-                    row.cycle = Some(cycle).filter(|c| *c > 0);
-                    row.cycle?;
-                }
-            }
-        }
-        Some(row)
-    }
-}
-
-impl QuickReader {
     /// Reads one whole row from the start of `data`, line break included, and says
     /// how many bytes it took. Numbers are parsed straight from the bytes, so each
     /// byte is looked at once. Rows without a final `\n` go the general way.
@@ -445,6 +379,18 @@ pub fn read_layout<'t>(
     layout: &Layout,
     text: &'t str,
 ) -> Result<RawCurve, IngestError> {
+    read_layout_with(file, format, layout, text, true)
+}
+
+/// [`read_layout`], with the quick row reader switchable so tests can check that
+/// both paths read every file the same way.
+fn read_layout_with<'t>(
+    file: &str,
+    format: &str,
+    layout: &Layout,
+    text: &'t str,
+    use_quick_reader: bool,
+) -> Result<RawCurve, IngestError> {
     let cx = Context { file, format };
     let mut lines = Lines { text, pos: 0, number: 0 };
     let mut metadata: Vec<(String, String, usize)> = Vec::new();
@@ -603,10 +549,6 @@ pub fn read_layout<'t>(
         {
             return Ok(());
         }
-        if let Some(quick_row) = quick.read(bytes) {
-            raw.push_quick(&quick_row, angle_factor, torque_factor, seconds_per_unit);
-            return Ok(());
-        }
         cells.clear();
         split_row(line, layout.delimiter, last_needed + 1, &mut cells);
         if cells.len() <= last_needed {
@@ -700,7 +642,9 @@ pub fn read_layout<'t>(
     loop {
         // Well-formed rows take the quick path; anything else (blank lines, a bad
         // cell, the last line without a break) goes through `row` for its error.
-        while let Some((quick_row, used)) = quick.read_line(&bytes[lines.pos..]) {
+        while let Some((quick_row, used)) =
+            use_quick_reader.then(|| quick.read_line(&bytes[lines.pos..])).flatten()
+        {
             raw.push_quick(&quick_row, angle_factor, torque_factor, seconds_per_unit);
             lines.pos += used;
             lines.number += 1;
@@ -732,4 +676,85 @@ pub fn read_layout<'t>(
         })
         .collect();
     Ok(raw)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+    use twistlot_model::Manifest;
+
+    fn layout(relative: &str) -> Layout {
+        let path =
+            std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../plugins/rig-formats").join(relative);
+        let text = std::fs::read_to_string(path).unwrap();
+        match Manifest::from_yaml(relative, &text).unwrap() {
+            Manifest::RigFormat(m) => m.layout.unwrap(),
+            _ => panic!("not a layout"),
+        }
+    }
+
+    fn same_either_way(layout: &Layout, text: &str) -> Result<(), TestCaseError> {
+        let quick = read_layout_with("f", "x", layout, text, true);
+        let general = read_layout_with("f", "x", layout, text, false);
+        match (quick, general) {
+            (Ok(a), Ok(b)) => {
+                prop_assert_eq!(a.angle_deg, b.angle_deg);
+                prop_assert_eq!(a.torque_nmm, b.torque_nmm);
+                prop_assert_eq!(a.time_s, b.time_s);
+                prop_assert_eq!(a.stroke, b.stroke);
+                prop_assert_eq!(a.cycle, b.cycle);
+            }
+            (Err(a), Err(b)) => prop_assert_eq!(a, b),
+            (a, b) => prop_assert!(false, "quick {:?} vs general {:?}", a.is_ok(), b.is_ok()),
+        }
+        Ok(())
+    }
+
+    /// Cells a rig might write, and some it should not.
+    fn cell() -> impl Strategy<Value = String> {
+        prop_oneof![
+            4 => (-5000.0f64..5000.0, 0usize..7).prop_map(|(v, p)| format!("{v:.p$}")),
+            1 => Just(String::new()),
+            1 => Just(" 12.5 ".to_string()),
+            1 => Just("1e3".to_string()),
+            1 => Just("\"7\"".to_string()),
+            1 => Just("x".to_string()),
+            1 => Just("NaN".to_string()),
+        ]
+    }
+
+    proptest! {
+        #[test]
+        fn native_rows_read_the_same_by_both_paths(
+            rows in proptest::collection::vec((cell(), cell(), cell()), 1..12),
+            crlf in any::<bool>(),
+            final_break in any::<bool>(),
+        ) {
+            let eol = if crlf { "\r\n" } else { "\n" };
+            let mut text = format!("# serial: 1{eol}time_s,angle_deg,torque_nmm{eol}");
+            for (i, (t, a, m)) in rows.iter().enumerate() {
+                text.push_str(&format!("{t},{a},{m}"));
+                if i + 1 < rows.len() || final_break {
+                    text.push_str(eol);
+                }
+            }
+            same_either_way(&layout("native.yaml"), &text)?;
+        }
+
+        #[test]
+        fn aligned_comma_decimal_and_labelled_rows_read_the_same(
+            rows in proptest::collection::vec((cell(), cell(), 0u32..4, any::<bool>()), 1..12),
+        ) {
+            let mut pellam = String::from("! PELLAM RT\n! TORQUE UNIT: N·cm\n");
+            let mut ostrel = String::from("OSTREL\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n");
+            for (i, (a, m, cycle, load)) in rows.iter().enumerate() {
+                pellam.push_str(&format!("{}  0.1  {a}  {m}  {cycle}\n", i + 1));
+                let dir = if *load { "+" } else { "-" };
+                ostrel.push_str(&format!("{};{};{dir}\n", a.replace('.', ","), m.replace('.', ",")));
+            }
+            same_either_way(&layout("pellam-fixed.yaml"), &pellam)?;
+            same_either_way(&layout("ostrel-semi.yaml"), &ostrel)?;
+        }
+    }
 }

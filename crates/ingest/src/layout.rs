@@ -373,12 +373,7 @@ fn take_line<'a>(
 }
 
 /// Reads `text` (already decoded) with `layout`.
-pub fn read_layout<'t>(
-    file: &str,
-    format: &str,
-    layout: &Layout,
-    text: &'t str,
-) -> Result<RawCurve, IngestError> {
+pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Result<RawCurve, IngestError> {
     read_layout_with(file, format, layout, text, true)
 }
 

@@ -273,11 +273,12 @@ pub fn dispose(evidence: &LotEvidence, scheme: &Scheme) -> Result<Disposition, S
                         let verdict = variables_verdict(used, &limits, design.k, vp.sigma)?;
                         let outcome = if verdict.accept { Outcome::Accept } else { Outcome::Reject };
                         let mut stats = Vec::new();
+                        let spread = if vp.sigma.is_some() { "σ" } else { "s" };
                         if let Some(q) = verdict.q_upper {
-                            stats.push(format!("(U − mean)/σ {q:.3}"));
+                            stats.push(format!("(U − mean)/{spread} {q:.3}"));
                         }
                         if let Some(q) = verdict.q_lower {
-                            stats.push(format!("(mean − L)/σ {q:.3}"));
+                            stats.push(format!("(mean − L)/{spread} {q:.3}"));
                         }
                         grounds.push(format!(
                             "variables on {}: n {}, mean {:.4}, {} {:.4}, {}, k {:.3}: {}",

@@ -11,6 +11,7 @@
 //! flagged curves) is also made by line style or width, not by colour alone.
 
 use crate::ReportError;
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
@@ -184,18 +185,9 @@ pub fn rate_histogram_svg(
             .x_label_area_size(44)
             .y_label_area_size(52)
             .build_cartesian_2d(x_lo..x_hi, 0.0..y_hi)?;
-        chart
-            .configure_mesh()
-            .light_line_style(GRID_LIGHT)
-            .bold_line_style(GRID_BOLD)
-            .max_light_lines(2)
-            .axis_style(INK)
-            .label_style((FONT, LABEL_PX).into_font().color(&INK))
-            .x_desc(unit_label)
-            .y_desc("parts")
-            .x_label_formatter(&|v| format!("{:.*}", x_decimals, v))
-            .y_label_formatter(&|v| integer_tick(*v))
-            .draw()?;
+        draw_mesh(&mut chart, unit_label, "parts", &|v| format!("{:.*}", x_decimals, v), &|v| {
+            integer_tick(*v)
+        })?;
 
         chart.draw_series(bins.counts.iter().enumerate().filter(|(_, c)| **c > 0).flat_map(|(i, c)| {
             let x0 = bins.start + i as f64 * bins.width;
@@ -299,18 +291,9 @@ pub fn curves_svg(curves: &[CurveLine], windows: &[ToleranceWindow]) -> Result<S
             .x_label_area_size(44)
             .y_label_area_size(64)
             .build_cartesian_2d(x_lo..x_hi, y_lo..y_hi)?;
-        chart
-            .configure_mesh()
-            .light_line_style(GRID_LIGHT)
-            .bold_line_style(GRID_BOLD)
-            .max_light_lines(2)
-            .axis_style(INK)
-            .label_style((FONT, LABEL_PX).into_font().color(&INK))
-            .x_desc("angle (°)")
-            .y_desc("torque (N·mm)")
-            .x_label_formatter(&|v| format!("{:.*}", x_decimals, v))
-            .y_label_formatter(&|v| format!("{:.*}", y_decimals, v))
-            .draw()?;
+        draw_mesh(&mut chart, "angle (°)", "torque (N·mm)", &|v| format!("{:.*}", x_decimals, v), &|v| {
+            format!("{:.*}", y_decimals, v)
+        })?;
 
         let plain_style = BLUE.mix(0.45).stroke_width(1);
         let flagged_style = VERMILLION.stroke_width(2);
@@ -406,18 +389,13 @@ pub fn oc_curve_svg(
             .x_label_area_size(44)
             .y_label_area_size(52)
             .build_cartesian_2d(0.0..x_hi, 0.0..y_hi)?;
-        chart
-            .configure_mesh()
-            .light_line_style(GRID_LIGHT)
-            .bold_line_style(GRID_BOLD)
-            .max_light_lines(2)
-            .axis_style(INK)
-            .label_style((FONT, LABEL_PX).into_font().color(&INK))
-            .x_desc("lot percent defective")
-            .y_desc("probability of acceptance")
-            .x_label_formatter(&|v| format!("{:.*}", x_decimals, v))
-            .y_label_formatter(&|v| format!("{v:.1}"))
-            .draw()?;
+        draw_mesh(
+            &mut chart,
+            "lot percent defective",
+            "probability of acceptance",
+            &|v| format!("{:.*}", x_decimals, v),
+            &|v| format!("{v:.1}"),
+        )?;
 
         chart.draw_series(LineSeries::new(curve.iter().copied(), BLUE.stroke_width(2)))?;
 
@@ -441,6 +419,31 @@ pub fn oc_curve_svg(
 }
 
 type DrawResult = Result<(), DrawingAreaErrorKind<<SVGBackend<'static> as DrawingBackend>::ErrorType>>;
+
+/// The plain f64 × f64 chart every function here draws on.
+type Chart2d<'a, 'b> = ChartContext<'a, SVGBackend<'b>, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
+/// The grid, axes and tick labels all charts share, so they look like one family.
+fn draw_mesh(
+    chart: &mut Chart2d<'_, '_>,
+    x_desc: &str,
+    y_desc: &str,
+    x_label: &dyn Fn(&f64) -> String,
+    y_label: &dyn Fn(&f64) -> String,
+) -> DrawResult {
+    chart
+        .configure_mesh()
+        .light_line_style(GRID_LIGHT)
+        .bold_line_style(GRID_BOLD)
+        .max_light_lines(2)
+        .axis_style(INK)
+        .label_style((FONT, LABEL_PX).into_font().color(&INK))
+        .x_desc(x_desc)
+        .y_desc(y_desc)
+        .x_label_formatter(x_label)
+        .y_label_formatter(y_label)
+        .draw()
+}
 
 /// Runs a drawing closure on a fresh SVG canvas and returns the markup.
 fn draw(

@@ -592,7 +592,10 @@ fn sampling(args: SamplingArgs) -> Result<ExitCode> {
                 bail!("give --lot-size and --aql (or use `twistlot sampling design`)");
             };
             let catalog = load_catalog(&args.plugins)?;
-            let scheme = load_scheme(&catalog, &args.scheme)?;
+            let scheme = match catalog.sampling_schemes().remove(&args.scheme) {
+                Some(scheme) => scheme.map_err(anyhow::Error::msg)?,
+                None => bail!("there is no sampling-scheme plugin named `{}`", args.scheme),
+            };
             let level: InspectionLevel = args.level.parse().map_err(anyhow::Error::msg)?;
             let severity: Severity = args.severity.parse().map_err(anyhow::Error::msg)?;
             let plan = scheme.plan(lot_size, level, aql, severity)?;
@@ -620,17 +623,6 @@ fn sampling(args: SamplingArgs) -> Result<ExitCode> {
         }
     }
     Ok(ExitCode::SUCCESS)
-}
-
-fn load_scheme(catalog: &PluginCatalog, name: &str) -> Result<twistlot_sampling::Scheme> {
-    for (path, manifest) in catalog.of_kind(twistlot_model::PluginKind::SamplingScheme) {
-        if manifest.header().name == name {
-            let text =
-                std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
-            return Ok(twistlot_sampling::Scheme::from_yaml(&path.display().to_string(), &text)?);
-        }
-    }
-    bail!("there is no sampling-scheme plugin named `{name}`")
 }
 
 fn plugins(args: PluginArgs) -> Result<ExitCode> {

@@ -76,6 +76,12 @@ impl RigFormat {
         }
     }
 
+    /// The built-in native format, compiled once per process (exec converters print it).
+    pub fn native_shared() -> &'static RigFormat {
+        static NATIVE: std::sync::OnceLock<RigFormat> = std::sync::OnceLock::new();
+        NATIVE.get_or_init(RigFormat::native)
+    }
+
     /// Whether this format's signature matches the file's name and first lines.
     pub fn matches(&self, file_name: &str, head: &str) -> bool {
         if !self.detect.extensions.is_empty() {

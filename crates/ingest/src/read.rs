@@ -76,7 +76,7 @@ pub fn read_with(file: &str, path: &Path, bytes: &[u8], format: &RigFormat) -> R
         }
         Reader::Exec { spec, plugin_dir } => {
             let printed = run_converter(file, path, &format.name, spec, plugin_dir)?;
-            let native = RigFormat::native();
+            let native = RigFormat::native_shared();
             let Reader::Layout(layout) = &native.reader else {
                 return Err(IngestError::file(
                     RejectKind::Converter,

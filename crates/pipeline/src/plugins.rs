@@ -66,6 +66,24 @@ impl PluginCatalog {
         })
     }
 
+    /// Every sampling scheme, loaded by name (a scheme whose tables do not load
+    /// keeps its error, so only lots that use it are affected).
+    pub fn sampling_schemes(
+        &self,
+    ) -> std::collections::BTreeMap<String, Result<twistlot_sampling::Scheme, String>> {
+        self.of_kind(PluginKind::SamplingScheme)
+            .map(|(path, manifest)| {
+                let scheme = std::fs::read_to_string(path)
+                    .map_err(|e| format!("{}: cannot read: {e}", path.display()))
+                    .and_then(|text| {
+                        twistlot_sampling::Scheme::from_yaml(&path.display().to_string(), &text)
+                            .map_err(|e| e.to_string())
+                    });
+                (manifest.header().name, scheme)
+            })
+            .collect()
+    }
+
     /// The rig formats, compiled; the built-in native format is used when no
     /// folder supplies one named `native`.
     pub fn rig_formats(&self) -> Result<FormatSet, String> {

@@ -214,6 +214,7 @@ pub fn run_shift(
     let specs = SpecLibrary::load_dir(&plant.parts_dir)?;
     let lots = load_lot_list(shift_dir)?;
     let sinks = configured_sinks(&catalog, &plant.sinks)?;
+    let schemes = catalog.sampling_schemes();
     let renderer = report::Renderer::new(&report::shipped_templates_dir(), plant.templates_dir.as_deref())
         .map_err(|e| ShiftError::Output(e.to_string()))?;
 
@@ -271,7 +272,7 @@ pub fn run_shift(
             listed,
             &tests,
             specs.get(&listed.part).map(|e| (&e.spec, e.path.as_path())),
-            &catalog,
+            &schemes,
         );
         let lot_file = sanitize(&listed.lot);
         let report_html = format!("lots/{lot_file}.html");
@@ -400,22 +401,14 @@ fn hold(grounds: Vec<String>) -> DecidedLot {
     }
 }
 
-fn load_scheme(catalog: &PluginCatalog, name: &str) -> Result<Scheme, String> {
-    for (path, manifest) in catalog.of_kind(PluginKind::SamplingScheme) {
-        if manifest.header().name == name {
-            let text =
-                std::fs::read_to_string(path).map_err(|e| format!("{}: cannot read: {e}", path.display()))?;
-            return Scheme::from_yaml(&path.display().to_string(), &text).map_err(|e| e.to_string());
-        }
-    }
-    Err(format!("there is no sampling-scheme plugin named `{name}`"))
-}
+/// Sampling schemes by plugin name, loaded once per run.
+type Schemes = BTreeMap<String, Result<Scheme, String>>;
 
 fn decide_lot(
     listed: &ListedLot,
     tests: &[TestResult],
     spec: Option<(&PartSpec, &Path)>,
-    catalog: &PluginCatalog,
+    schemes: &Schemes,
 ) -> DecidedLot {
     let Some((spec, spec_path)) = spec else {
         return hold(vec![format!("no spec for part `{}` in the plant's parts folder", listed.part)]);
@@ -426,9 +419,10 @@ fn decide_lot(
     let Some(sampling) = &spec.sampling else {
         return hold(vec![format!("the spec for `{}` names no sampling agreement", spec.part)]);
     };
-    let scheme = match load_scheme(catalog, &sampling.scheme) {
-        Ok(scheme) => scheme,
-        Err(message) => return hold(vec![message]),
+    let scheme = match schemes.get(&sampling.scheme) {
+        Some(Ok(scheme)) => scheme,
+        Some(Err(message)) => return hold(vec![message.clone()]),
+        None => return hold(vec![format!("there is no sampling-scheme plugin named `{}`", sampling.scheme)]),
     };
     let mut grounds = Vec::new();
     let wrong_part: Vec<&str> = tests
@@ -466,7 +460,7 @@ fn decide_lot(
         tests: evidence_tests,
         variables,
     };
-    let disposition = match dispose(&evidence, &scheme) {
+    let disposition = match dispose(&evidence, scheme) {
         Ok(d) => d,
         Err(err) => {
             grounds.push(format!("the lot could not be decided: {err}"));

@@ -166,11 +166,16 @@ pub fn rate_histogram_svg(
     let n = data.len() as f64;
     let max_count = bins.counts.iter().copied().max().unwrap_or(0) as f64;
     let peak_of = |(mean, sd): (f64, f64)| expected_count(mean, n, bins.width, mean, sd);
-    // A vanishing sd makes the peak infinite; such a fit has nothing to show.
-    let fit = fit.filter(|f| peak_of(*f).is_finite());
-    let fit_peak = fit.map_or(0.0, peak_of);
     // Headroom above the tallest element keeps the limit labels clear of the bars.
-    let y_hi = (max_count.max(fit_peak) * 1.25).max(1.0);
+    let headroom = 1.25;
+    // A vanishing sd makes the peak overflow, with or without the headroom; such a fit has
+    // nothing to show, and an infinite axis would stall plotters' tick search.
+    let fit = fit.filter(|f| usable((0.0, peak_of(*f) * headroom)).is_some());
+    let fit_peak = fit.map_or(0.0, peak_of);
+    let y_hi = (max_count.max(fit_peak) * headroom).max(1.0);
+    if usable((0.0, y_hi)).is_none() {
+        return Ok(no_data(CHART));
+    }
 
     let mut caption = format!("{} values", data.len());
     if let Some((mean, sd)) = fit {
@@ -378,7 +383,7 @@ pub fn oc_curve_svg(
     curve.sort_by(|a, b| a.0.total_cmp(&b.0));
     let lot_point = lot_point.filter(on_chart);
     let x_max = curve.iter().map(|p| p.0).chain(lot_point.map(|p| p.0)).fold(0.0, f64::max);
-    let x_hi = if x_max > 0.0 { x_max * 1.05 } else { 1.0 };
+    let x_hi = if x_max * 1.05 >= MIN_SPAN { x_max * 1.05 } else { 1.0 };
     let y_hi = 1.05;
     let x_decimals = tick_decimals(x_hi);
 
@@ -529,22 +534,33 @@ fn span_of(values: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
     })
 }
 
-/// Widens a range by `fraction` of its span on each side; a zero span gets a small one.
+/// Widens a range by `fraction` of its span on each side; a span too small to tick gets a small one.
 fn padded(range: Option<(f64, f64)>, fraction: f64) -> (f64, f64) {
     let (lo, hi) = range.unwrap_or((0.0, 1.0));
     let span = hi - lo;
-    if span > 0.0 {
+    if span >= least_span(lo, hi) {
         (lo - span * fraction, hi + span * fraction)
     } else {
-        let half = if lo != 0.0 { lo.abs() * 0.05 } else { 0.5 };
-        (lo - half, hi + half)
+        let magnitude = lo.abs().max(hi.abs());
+        let half = if magnitude * 0.05 >= MIN_SPAN { magnitude * 0.05 } else { 0.5 };
+        let mid = lo / 2.0 + hi / 2.0;
+        (mid - half, mid + half)
     }
 }
 
-/// A range plotters can map to pixels: finite ends and a finite, positive span.
+/// Smallest absolute axis span drawn as is; values closer together than this are one value.
+const MIN_SPAN: f64 = 1e-9;
+
+/// Smallest span f64 can split into distinct ticks around these ends. plotters' tick search
+/// never ends on a span that underflows or that rounding swallows, so narrower ranges are widened.
+fn least_span(lo: f64, hi: f64) -> f64 {
+    (lo.abs().max(hi.abs()) * 1e-9).max(MIN_SPAN)
+}
+
+/// A range plotters can map to pixels: finite ends and a finite span wide enough to tick.
 fn usable((lo, hi): (f64, f64)) -> Option<(f64, f64)> {
     let span = hi - lo;
-    (lo.is_finite() && hi.is_finite() && span.is_finite() && span > 0.0).then_some((lo, hi))
+    (lo.is_finite() && hi.is_finite() && span.is_finite() && span >= least_span(lo, hi)).then_some((lo, hi))
 }
 
 /// Decimals for axis ticks so that about ten ticks across `span` stay distinct.
@@ -821,18 +837,73 @@ mod tests {
             limit in prop::option::of(prop::num::f64::ANY),
             sd in prop::num::f64::ANY,
         ) {
-            let svg = rate_histogram_svg(&values, limit, None, limit, Some((0.0, sd)), "x").unwrap();
-            prop_assert!(svg.as_str().starts_with("<svg "));
-            let curve = CurveLine {
-                label: "p".into(),
-                angle_deg: values.clone(),
-                torque_nmm: values.iter().rev().copied().collect(),
-                flagged: true,
-            };
-            let window = ToleranceWindow { angle_deg: sd, lower_nmm: limit, upper_nmm: None };
-            prop_assert!(curves_svg(&[curve], &[window]).is_ok());
-            let oc: Vec<(f64, f64)> = values.iter().map(|v| (*v, 0.5)).collect();
-            prop_assert!(oc_curve_svg(&oc, limit.map(|l| (l, l)), "plan").is_ok());
+            let outcome = all_charts_within_deadline(values.clone(), limit, sd);
+            prop_assert!(outcome.is_ok(), "{:?} on values {:?}, limit {:?}, sd {}", outcome, values, limit, sd);
         }
+    }
+
+    /// Draws every chart from the same odd numbers on a worker thread; a hang becomes an error
+    /// naming the chart instead of a test run that never ends.
+    fn all_charts_within_deadline(values: Vec<f64>, limit: Option<f64>, sd: f64) -> Result<(), String> {
+        let (done, finished) = std::sync::mpsc::channel();
+        std::thread::spawn(move || {
+            let outcome = (|| {
+                let svg = rate_histogram_svg(&values, limit, None, limit, Some((0.0, sd)), "x")
+                    .map_err(|e| format!("histogram: {e}"))?;
+                if !svg.as_str().starts_with("<svg ") {
+                    return Err("histogram is not SVG".to_string());
+                }
+                let curve = CurveLine {
+                    label: "p".into(),
+                    angle_deg: values.clone(),
+                    torque_nmm: values.iter().rev().copied().collect(),
+                    flagged: true,
+                };
+                let window = ToleranceWindow { angle_deg: sd, lower_nmm: limit, upper_nmm: None };
+                curves_svg(&[curve], &[window]).map_err(|e| format!("curves: {e}"))?;
+                let oc: Vec<(f64, f64)> = values.iter().map(|v| (*v, 0.5)).collect();
+                oc_curve_svg(&oc, limit.map(|l| (l, l)), "plan").map_err(|e| format!("OC: {e}"))?;
+                Ok(())
+            })();
+            let _ = done.send(outcome);
+        });
+        // Generous for a debug build on a loaded machine; a finished chart takes milliseconds.
+        match finished.recv_timeout(std::time::Duration::from_secs(20)) {
+            Ok(outcome) => outcome,
+            Err(_) => Err("a chart did not finish within 20 s".to_string()),
+        }
+    }
+
+    #[test]
+    fn ranges_that_rounding_swallows_still_draw() {
+        // Each of these once sent plotters' tick search into a loop that never ended:
+        // spans that underflow, spans lost in the rounding of large values, lone tiny values.
+        let smallest = f64::from_bits(1);
+        let cases: Vec<(Vec<f64>, Option<f64>, f64)> = vec![
+            (vec![smallest], None, 1.0),
+            (vec![smallest, 2.0 * smallest], Some(smallest), smallest),
+            (vec![f64::MIN_POSITIVE; 3], Some(-f64::MIN_POSITIVE), 0.0),
+            (vec![1e300, 1e300 * (1.0 + f64::EPSILON)], None, 1e300),
+            (vec![1e15, 1e15 + 0.125], Some(1e15), 1e15),
+            (vec![f64::MAX, -f64::MAX], Some(f64::MAX), f64::MAX),
+            (vec![-0.0, 0.0], Some(0.0), -0.0),
+            (vec![1e-12, 3e-12, 2e-12], Some(5e-12), 1e-12),
+            (vec![0.0, 0.0, -1.987806989563402e170, -0.0], None, 6.3168491955134895e-139),
+        ];
+        for (values, limit, sd) in cases {
+            let outcome = all_charts_within_deadline(values.clone(), limit, sd);
+            assert!(outcome.is_ok(), "{outcome:?} on values {values:?}, limit {limit:?}, sd {sd}");
+        }
+    }
+
+    #[test]
+    fn a_narrow_range_is_widened_to_one_plotters_can_tick() {
+        let (lo, hi) = padded(Some((1e15, 1e15 + 0.125)), 0.06);
+        assert!(hi - lo >= least_span(lo, hi));
+        assert!(lo <= 1e15 && hi >= 1e15 + 0.125);
+        let (lo, hi) = padded(Some((f64::from_bits(1), f64::from_bits(2))), 0.06);
+        assert_eq!((lo, hi), (-0.5, 0.5));
+        assert_eq!(usable((0.0, f64::from_bits(1))), None);
+        assert_eq!(usable((10.0, 12.0)), Some((10.0, 12.0)));
     }
 }

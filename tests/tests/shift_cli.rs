@@ -5,6 +5,11 @@ use std::path::Path;
 use twistlot_tests::{sample_shift_dir, twistlot, workspace_root};
 
 fn run_shift(shift: &Path, plant: &Path, out: &Path) -> (i32, Value) {
+    run_shift_with(shift, plant, out, &[])
+}
+
+/// Runs a shift with extra arguments (such as `--history DIR`).
+fn run_shift_with(shift: &Path, plant: &Path, out: &Path, extra: &[&str]) -> (i32, Value) {
     let output = twistlot()
         .args([
             "shift",
@@ -14,6 +19,7 @@ fn run_shift(shift: &Path, plant: &Path, out: &Path) -> (i32, Value) {
             "--out",
             out.to_str().unwrap(),
         ])
+        .args(extra)
         .output()
         .unwrap();
     let summary = std::fs::read_to_string(out.join("summary.json")).unwrap_or_else(|e| {
@@ -35,7 +41,12 @@ fn lot<'a>(summary: &'a Value, id: &str) -> &'a Value {
 fn the_demo_shift_is_accounted_for_decided_and_reported() {
     let out = tempfile::tempdir().unwrap();
     let plant = workspace_root().join("sample_lots/plant.yaml");
-    let (code, summary) = run_shift(&sample_shift_dir(), &plant, out.path());
+    // The run writes the switching record, so it gets a copy of the shipped one.
+    let history = tempfile::tempdir().unwrap();
+    let shipped_record = workspace_root().join("sample_lots/history/switching.jsonl");
+    std::fs::copy(&shipped_record, history.path().join("switching.jsonl")).unwrap();
+    let history_arg = ["--history", history.path().to_str().unwrap()];
+    let (code, summary) = run_shift_with(&sample_shift_dir(), &plant, out.path(), &history_arg);
     assert_eq!(code, 3, "two exports are broken on purpose");
 
     // Every export is accounted for.
@@ -79,6 +90,21 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
     );
     assert_eq!(lot(&summary, "L2612-050")["disposition"], "accept");
     assert_eq!(lot(&summary, "L2612-051")["disposition"], "reject");
+
+    // Severities come from the shipped switching record: TS-2210 earned reduced inspection
+    // in earlier shifts, and L2612-040 is TS-0815's second rejection in five lots.
+    let severity = |id: &str| lot(&summary, id)["plan"]["severity"].as_str().unwrap().to_string();
+    assert_eq!(severity("L2612-031"), "reduced");
+    assert_eq!(severity("L2612-040"), "normal");
+    assert_eq!(lot(&summary, "L2612-040")["next_severity"], "tightened");
+    assert_eq!(severity("L2612-041"), "tightened");
+    assert_eq!(severity("L2612-050"), "normal");
+    // The shipped record already holds this shift's lots, so the run leaves it as it was.
+    assert_eq!(
+        std::fs::read_to_string(history.path().join("switching.jsonl")).unwrap(),
+        std::fs::read_to_string(&shipped_record).unwrap(),
+        "re-running a shift must replace its own entries, not add to them"
+    );
 
     // The lot report is one self-contained page with three inline charts and the cautions.
     let html =
@@ -199,4 +225,153 @@ fn a_missing_lot_list_is_a_clear_error() {
         .unwrap();
     assert_eq!(output.status.code(), Some(1));
     assert!(String::from_utf8_lossy(&output.stderr).contains("lots.yaml"));
+}
+
+/// A shift of native TS-2210 exports in lot `lot`; the first `bad` parts have a rate far out of tolerance.
+fn shift_of(dir: &Path, lot: &str, bad: usize) {
+    std::fs::create_dir_all(dir).unwrap();
+    std::fs::write(
+        dir.join("lots.yaml"),
+        format!("lots:\n  - {{ lot: {lot}, part: TS-2210, quantity: 20 }}\n"),
+    )
+    .unwrap();
+    for i in 0..20 {
+        let mut text = format!(
+            "# serial: {lot}-{i:02}\n# part: TS-2210\n# lot: {lot}\n# rig: RIG-N\nangle_deg,torque_nmm\n"
+        );
+        let rate = if i < bad { 35.0 } else { 29.0 + 0.01 * i as f64 };
+        for k in 0..=180 {
+            text.push_str(&format!("{:.3},{:.3}\n", k as f64 * 0.5, rate * k as f64 * 0.5 * 1.004));
+        }
+        for k in (0..180).rev() {
+            text.push_str(&format!("{:.3},{:.3}\n", k as f64 * 0.5, rate * k as f64 * 0.5 * 0.996));
+        }
+        std::fs::write(dir.join(format!("p{i:02}.csv")), text).unwrap();
+    }
+}
+
+fn switching_json(plant: &Path) -> Vec<Value> {
+    let output = twistlot()
+        .args(["switching", "--plant", plant.to_str().unwrap(), "--format", "json"])
+        .output()
+        .unwrap();
+    assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
+    serde_json::from_slice(&output.stdout).unwrap()
+}
+
+fn standing<'a>(rows: &'a [Value], part: &str) -> &'a Value {
+    rows.iter().find(|r| r["part"] == part).unwrap_or_else(|| panic!("no part {part} in {rows:?}"))
+}
+
+#[test]
+fn severity_carries_from_shift_to_shift_and_reruns_do_not_count_twice() {
+    let root = tempfile::tempdir().unwrap();
+    let history = root.path().join("history");
+    let plant = plant_with(root.path(), &format!("history: {}\n", history.display()));
+    let record = history.join("switching.jsonl");
+
+    // MIL-STD-105E §8.3 (normal → tightened): 2 lots not accepted within 5 consecutive lots.
+    let mut dispositions = Vec::new();
+    for (shift, lot) in [("s1", "L-1"), ("s2", "L-2")] {
+        let dir = root.path().join(shift);
+        shift_of(&dir, lot, 1);
+        let (_, summary) = run_shift(&dir, &plant, &root.path().join(format!("out-{shift}")));
+        dispositions.push(summary["lots"][0]["disposition"].clone());
+        assert_eq!(summary["lots"][0]["plan"]["severity"], "normal");
+    }
+    assert_eq!(dispositions, ["reject", "reject"]);
+    assert_eq!(standing(&switching_json(&plant), "TS-2210")["severity"], "tightened");
+    let lines_before = std::fs::read_to_string(&record).unwrap().lines().count();
+    assert_eq!(lines_before, 2);
+
+    // Re-running the second shift replaces its own entry.
+    let (_, again) = run_shift(&root.path().join("s2"), &plant, &root.path().join("out-again"));
+    assert_eq!(again["lots"][0]["plan"]["severity"], "normal", "s2 is still judged from before itself");
+    assert_eq!(std::fs::read_to_string(&record).unwrap().lines().count(), lines_before);
+
+    // The next shift is inspected on tightened, and says why.
+    let dir = root.path().join("s3");
+    shift_of(&dir, "L-3", 0);
+    let (_, summary) = run_shift(&dir, &plant, &root.path().join("out-s3"));
+    let l3 = &summary["lots"][0];
+    assert_eq!(l3["plan"]["severity"], "tightened");
+    let grounds: Vec<&str> = l3["grounds"].as_array().unwrap().iter().map(|g| g.as_str().unwrap()).collect();
+    assert!(grounds.iter().any(|g| g.contains("tightened") && g.contains("since lot L-2")), "{grounds:?}");
+}
+
+#[test]
+fn a_discontinued_part_is_held_until_resumed() {
+    let root = tempfile::tempdir().unwrap();
+    let history = root.path().join("history");
+    std::fs::create_dir_all(&history).unwrap();
+    // Two rejections on normal, then five on tightened: the discontinuation count of the shipped scheme.
+    let mut record = String::new();
+    for i in 0..7 {
+        record.push_str(&format!(
+            "{{\"part\":\"TS-2210\",\"shift\":\"old-{i}\",\"lot\":\"O-{i}\",\"kind\":\"reject\",\"sample_size\":5,\"defectives\":1,\"aql_pct\":1.0}}\n"
+        ));
+    }
+    std::fs::write(history.join("switching.jsonl"), record).unwrap();
+    let plant = plant_with(root.path(), &format!("history: {}\n", history.display()));
+    assert_eq!(standing(&switching_json(&plant), "TS-2210")["severity"], "discontinued");
+
+    let dir = root.path().join("s1");
+    shift_of(&dir, "L-9", 0);
+    let (_, summary) = run_shift(&dir, &plant, &root.path().join("out-1"));
+    let held = &summary["lots"][0];
+    assert_eq!(held["disposition"], "hold", "{held}");
+    assert!(held["grounds"].to_string().contains("discontinued"), "{held}");
+
+    // Resuming needs a note, and is refused for a part that is not discontinued.
+    let plant_arg = plant.to_str().unwrap();
+    let refused = twistlot()
+        .args(["switching", "resume", "TS-0815", "--plant", plant_arg, "--note", "x"])
+        .output()
+        .unwrap();
+    assert_eq!(refused.status.code(), Some(1));
+    assert!(String::from_utf8_lossy(&refused.stderr).contains("not discontinued"));
+    let resumed = twistlot()
+        .args([
+            "switching",
+            "resume",
+            "TS-2210",
+            "--plant",
+            plant_arg,
+            "--note",
+            "8D report 1142 approved by QA (invented)",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(resumed.status.code(), Some(0), "{}", String::from_utf8_lossy(&resumed.stderr));
+    assert_eq!(standing(&switching_json(&plant), "TS-2210")["severity"], "tightened");
+
+    let dir = root.path().join("s2");
+    shift_of(&dir, "L-10", 0);
+    let (_, summary) = run_shift(&dir, &plant, &root.path().join("out-2"));
+    assert_eq!(summary["lots"][0]["disposition"], "accept");
+    assert_eq!(summary["lots"][0]["plan"]["severity"], "tightened");
+}
+
+#[test]
+fn a_broken_switching_record_stops_the_shift_naming_file_and_line() {
+    let root = tempfile::tempdir().unwrap();
+    let history = root.path().join("history");
+    std::fs::create_dir_all(&history).unwrap();
+    std::fs::write(
+        history.join("switching.jsonl"),
+        "{\"part\":\"TS-2210\",\"shift\":\"a\",\"lot\":\"A\",\"kind\":\"accept\"}\n{\"part\":\"TS-2210\",\"shift\":\"a\",\"lot\":\"B\",\"kind\":\"acept\"}\n",
+    )
+    .unwrap();
+    let plant = plant_with(root.path(), &format!("history: {}\n", history.display()));
+    let dir = root.path().join("s1");
+    shift_of(&dir, "L-1", 0);
+    let output = twistlot()
+        .args(["shift", dir.to_str().unwrap(), "--plant", plant.to_str().unwrap()])
+        .args(["--out", root.path().join("out").to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert_eq!(output.status.code(), Some(1));
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(stderr.contains("switching.jsonl:2:") && stderr.contains("acept"), "{stderr}");
+    assert!(!root.path().join("out").join("summary.json").exists(), "nothing is decided on a broken record");
 }

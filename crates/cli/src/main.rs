@@ -54,6 +54,9 @@ enum Command {
     /// Look up attribute sampling plans, or design plans from producer's and consumer's risks.
     #[command(args_conflicts_with_subcommands = true)]
     Sampling(SamplingArgs),
+    /// Show each part's inspection severity from the plant's switching record, or resume a discontinued part.
+    #[command(args_conflicts_with_subcommands = true)]
+    Switching(SwitchingArgs),
     /// List and validate the plugins found in the plugin folders.
     #[command(after_help = EXIT_HELP)]
     Plugins(PluginArgs),
@@ -110,6 +113,42 @@ struct ShiftArgs {
     /// Where reports go (default: `out/<shift folder name>`).
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
+    /// History folder holding the switching record (default: the plant config's `history`).
+    #[arg(long, value_name = "DIR")]
+    history: Option<PathBuf>,
+}
+
+#[derive(Args)]
+struct SwitchingArgs {
+    #[command(subcommand)]
+    resume: Option<SwitchingCommand>,
+    /// Plant config (default: `plant.yaml` in the current folder or a folder above it).
+    #[arg(long, value_name = "FILE")]
+    plant: Option<PathBuf>,
+    /// History folder holding the switching record (default: the plant config's `history`).
+    #[arg(long, value_name = "DIR")]
+    history: Option<PathBuf>,
+    /// How to print the result.
+    #[arg(long, value_enum, default_value = "table")]
+    format: OutputFormat,
+}
+
+#[derive(Subcommand)]
+enum SwitchingCommand {
+    /// Record the corrective action for a discontinued part; its next lot is inspected on tightened.
+    Resume {
+        /// Part number.
+        part: String,
+        /// Who approved the corrective action and what it was (kept in the record).
+        #[arg(long)]
+        note: String,
+        /// Plant config (default: `plant.yaml` in the current folder or a folder above it).
+        #[arg(long, value_name = "FILE")]
+        plant: Option<PathBuf>,
+        /// History folder holding the switching record (default: the plant config's `history`).
+        #[arg(long, value_name = "DIR")]
+        history: Option<PathBuf>,
+    },
 }
 
 #[derive(Args)]
@@ -260,6 +299,7 @@ fn main() -> ExitCode {
         Command::Shift(args) => shift(args),
         Command::Evaluate(args) => evaluate(args),
         Command::Sampling(args) => sampling(args),
+        Command::Switching(args) => switching(args),
         Command::Plugins(args) => plugins(args),
         Command::Synth(command) => synth(command),
     };
@@ -375,7 +415,10 @@ fn shift(args: ShiftArgs) -> Result<ExitCode> {
             args.shift_dir.display()
         ),
     };
-    let plant = Plant::load(&plant_path)?;
+    let mut plant = Plant::load(&plant_path)?;
+    if let Some(history) = &args.history {
+        plant.history_dir = Some(history.clone());
+    }
     let shift_name =
         args.shift_dir.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_else(|| "shift".into());
     let out = args.out.clone().unwrap_or_else(|| PathBuf::from("out").join(&shift_name));
@@ -401,13 +444,30 @@ fn shift(args: ShiftArgs) -> Result<ExitCode> {
         summary.files_accepted,
         summary.files_rejected.len()
     );
-    let mut table =
-        Table::new(&["lot", "part", "quantity", "tested", "failed", "invalid", "disposition", "grounds"]);
+    let mut table = Table::new(&[
+        "lot",
+        "part",
+        "quantity",
+        "severity",
+        "tested",
+        "failed",
+        "invalid",
+        "disposition",
+        "grounds",
+    ]);
     for lot in &summary.lots {
+        let used = lot.plan.as_ref().map(|p| p.severity.clone());
+        let severity = match (used, &lot.next_severity) {
+            (Some(used), Some(next)) if *next != used => format!("{used} → {next}"),
+            (Some(used), _) => used,
+            (None, Some(next)) => format!("→ {next}"),
+            (None, None) => "-".to_string(),
+        };
         table.row(vec![
             lot.lot.clone(),
             lot.part.clone(),
             lot.quantity.to_string(),
+            severity,
             lot.tested.to_string(),
             lot.failed.to_string(),
             lot.invalid.to_string(),
@@ -428,6 +488,54 @@ fn shift(args: ShiftArgs) -> Result<ExitCode> {
     println!("reports: {}", out.join("shift_summary.html").display());
     eprintln!("{CAUTION} A lot is released only by the people the plant's procedures name, never by this tool alone.");
     Ok(if summary.files_rejected.is_empty() { ExitCode::SUCCESS } else { ExitCode::from(EXIT_SOME_REJECTED) })
+}
+
+/// The plant config named on the command line, else the nearest `plant.yaml` upwards from here.
+fn plant_with_history(plant: Option<PathBuf>, history: Option<PathBuf>) -> Result<Plant> {
+    let path = match plant.or_else(|| find_plant(Path::new("."))) {
+        Some(path) => path,
+        None => bail!("no plant config: give --plant FILE (no plant.yaml here or above)"),
+    };
+    let mut plant = Plant::load(&path)?;
+    if history.is_some() {
+        plant.history_dir = history;
+    }
+    Ok(plant)
+}
+
+fn switching(args: SwitchingArgs) -> Result<ExitCode> {
+    if let Some(SwitchingCommand::Resume { part, note, plant, history }) = args.resume {
+        let plant = plant_with_history(plant, history)?;
+        let stamp = twistlot_pipeline::shift::utc_stamp();
+        let row = twistlot_pipeline::resume_part(&plant, &part, &note, &format!("resumed {stamp}"))?;
+        println!("part {}: {}", row.part, row.explanation);
+        eprintln!(
+            "Resuming records that corrective action was taken; it does not check that action. \
+             The customer's agreement governs whether acceptance may resume."
+        );
+        return Ok(ExitCode::SUCCESS);
+    }
+    let plant = plant_with_history(args.plant, args.history)?;
+    let rows = twistlot_pipeline::plant_standings(&plant)?;
+    match args.format {
+        OutputFormat::Json => println!("{}", serde_json::to_string_pretty(&rows)?),
+        format => {
+            let mut table =
+                Table::new(&["part", "severity", "lots", "not accepted", "last switch", "recorded lots"]);
+            for row in &rows {
+                table.row(vec![
+                    row.part.clone(),
+                    row.severity.clone(),
+                    row.lots_on_severity.to_string(),
+                    row.rejected_on_severity.to_string(),
+                    row.last_switch.clone().unwrap_or_else(|| "-".into()),
+                    row.recorded_lots.to_string(),
+                ]);
+            }
+            print_rows(&table, format == OutputFormat::Csv);
+        }
+    }
+    Ok(ExitCode::SUCCESS)
 }
 
 fn evaluate(args: EvaluateArgs) -> Result<ExitCode> {

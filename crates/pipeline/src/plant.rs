@@ -22,6 +22,30 @@ struct PlantFile {
     rigs: Vec<RigEntry>,
     #[serde(default)]
     sinks: Vec<String>,
+    #[serde(default)]
+    switching: SwitchingConfig,
+}
+
+/// The plant's answers to the conditions MIL-STD-105E §8.3 asks for beyond the lot counts.
+#[derive(Debug, Clone, Default, PartialEq, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct SwitchingConfig {
+    /// Parts the responsible authority has approved for reduced inspection (none by default).
+    #[serde(default)]
+    pub reduced_approved: Vec<String>,
+    /// Parts whose production is not at a steady rate (they never go to, or stay on, reduced).
+    #[serde(default)]
+    pub unsteady: Vec<String>,
+}
+
+impl SwitchingConfig {
+    /// The switching conditions for one part.
+    pub fn conditions(&self, part: &str) -> twistlot_sampling::Conditions {
+        twistlot_sampling::Conditions {
+            production_steady: !self.unsteady.iter().any(|p| p == part),
+            reduced_approved: self.reduced_approved.iter().any(|p| p == part),
+        }
+    }
 }
 
 /// A rig the plant runs.
@@ -56,6 +80,8 @@ pub struct Plant {
     pub rigs: Vec<RigEntry>,
     /// Sink plugins every decided lot is sent to, by name.
     pub sinks: Vec<String>,
+    /// Conditions for reduced inspection.
+    pub switching: SwitchingConfig,
 }
 
 /// Why the plant config or a spec did not load.
@@ -116,6 +142,7 @@ impl Plant {
             history_dir: file.history.as_deref().map(resolve),
             rigs: file.rigs,
             sinks: file.sinks,
+            switching: file.switching,
         })
     }
 }
@@ -181,6 +208,11 @@ impl SpecLibrary {
     /// The only spec, when the library holds exactly one (a `--spec FILE`).
     pub fn only(&self) -> Option<&SpecEntry> {
         (self.specs.len() == 1).then(|| self.specs.values().next()).flatten()
+    }
+
+    /// Part numbers, sorted.
+    pub fn parts(&self) -> impl Iterator<Item = &str> {
+        self.specs.keys().map(String::as_str)
     }
 
     /// Number of specs.

@@ -9,6 +9,7 @@
 use crate::evaluate::{evaluate_files, EvaluateOptions, Evaluated, SpecSource, TestResult};
 use crate::plant::{Plant, PlantError, SpecLibrary};
 use crate::plugins::{check_manifests, shipped_plugins_dir, PluginCatalog};
+use crate::switching::{describe_standing, EntryKind, PartStanding, SwitchingEntry, SwitchingRecord};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -19,7 +20,8 @@ use twistlot_model::yaml::parse_document;
 use twistlot_model::{CharacteristicClass, Limits, Manifest, PartSpec, PluginKind, Verdict};
 use twistlot_report as report;
 use twistlot_sampling::{
-    attribute_oc, dispose, LotEvidence, Outcome, Scheme, Severity, TestEvidence, VariablesEvidence,
+    attribute_oc, dispose, LotEvidence, Outcome, Scheme, Severity, SwitchingRules, TestEvidence,
+    VariablesEvidence,
 };
 use twistlot_stats::{capability, Capability, CheckSet};
 
@@ -66,6 +68,9 @@ pub enum ShiftError {
     /// Reports could not be written.
     #[error("{0}")]
     Output(String),
+    /// The switching record in the plant's history folder cannot be read or written.
+    #[error("{0}")]
+    History(String),
 }
 
 /// The plan a lot was decided under, as `summary.json` carries it.
@@ -125,6 +130,8 @@ pub struct LotSummary {
     pub invalid: u64,
     /// The plan (the class with the largest sample decides which one is shown).
     pub plan: Option<PlanSummary>,
+    /// Severity the part's next lot is inspected under, after this lot's outcome.
+    pub next_severity: Option<String>,
     /// Rate statistics.
     pub rate: Option<RateSummary>,
     /// Grounds of the disposition.
@@ -161,6 +168,8 @@ pub struct ShiftSummaryJson {
     pub unlisted_tests: Vec<String>,
     /// Sinks that failed, with reasons (results are kept all the same).
     pub sink_failures: Vec<String>,
+    /// The switching record the severities came from and went to, if the plant keeps one.
+    pub switching_record: Option<String>,
     /// Cautions.
     pub cautions: Vec<String>,
 }
@@ -217,6 +226,11 @@ pub fn run_shift(
     let schemes = catalog.sampling_schemes();
     let renderer = report::Renderer::new(&report::shipped_templates_dir(), plant.templates_dir.as_deref())
         .map_err(|e| ShiftError::Output(e.to_string()))?;
+    // Read before any export so that a broken record stops the run before work is spent on it.
+    let mut record = match &plant.history_dir {
+        Some(dir) => Some(SwitchingRecord::load(dir).map_err(|e| ShiftError::History(e.to_string()))?),
+        None => None,
+    };
 
     let lot_list_path = shift_dir.join(LOT_LIST);
     let (files, missing) = expand_inputs(&[shift_dir.to_path_buf()]);
@@ -246,7 +260,7 @@ pub fn run_shift(
     let accepted_files: u64 = by_lot.values().map(|v| v.len() as u64).sum();
     let shift = shift_dir.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
     let cautions = report::default_cautions();
-    let generated_at = generated_stamp();
+    let generated_at = utc_stamp();
     let mut written = Vec::new();
     let mut summary = ShiftSummaryJson {
         shift: shift.clone(),
@@ -256,6 +270,7 @@ pub fn run_shift(
         lots: Vec::new(),
         unlisted_tests: Vec::new(),
         sink_failures: Vec::new(),
+        switching_record: record.as_ref().map(|r| r.path().display().to_string()),
         cautions: cautions.clone(),
     };
     let rejected_views: Vec<report::RejectedFile> = summary
@@ -266,14 +281,76 @@ pub fn run_shift(
 
     let mut all_tests: Vec<report::TestRow> = Vec::new();
     let mut lot_lines = Vec::new();
+    let mut standings: BTreeMap<String, PartStanding> = BTreeMap::new();
+    let mut shift_entries: Vec<SwitchingEntry> = Vec::new();
     for listed in &lots {
         let tests = by_lot.remove(&listed.lot).unwrap_or_default();
-        let decided = decide_lot(
+        let spec_entry = specs.get(&listed.part);
+        let rules = spec_entry.and_then(|e| part_rules(&e.spec, &schemes));
+        let conditions = plant.switching.conditions(&listed.part);
+        // A part's lots in this shift are fed in lot-list order, after its earlier shifts.
+        let standing = rules.map(|rules| {
+            standings.entry(listed.part.clone()).or_insert_with(|| match &record {
+                Some(record) => record.standing_before(&listed.part, &shift, rules, &conditions),
+                None => PartStanding::fresh(),
+            })
+        });
+        let switching = standing.as_deref().zip(rules).map(|(standing, rules)| LotSwitching {
+            severity: standing.state.severity,
+            discontinued: standing.state.discontinued,
+            ground: match &record {
+                Some(record) => {
+                    format!(
+                        "{}, from the switching record {}",
+                        describe_standing(standing, rules),
+                        record.path().display()
+                    )
+                }
+                None => "inspection severity normal: the plant config names no history folder, so no \
+                         switching record is kept and every shift starts on normal inspection"
+                    .to_string(),
+            },
+        });
+        let mut decided = decide_lot(
             listed,
             &tests,
-            specs.get(&listed.part).map(|e| (&e.spec, e.path.as_path())),
+            spec_entry.map(|e| (&e.spec, e.path.as_path())),
             &schemes,
+            switching.as_ref(),
         );
+        let entry = SwitchingEntry {
+            part: listed.part.clone(),
+            shift: shift.clone(),
+            lot: Some(listed.lot.clone()),
+            kind: match decided.outcome {
+                Outcome::Accept => EntryKind::Accept,
+                Outcome::Reject => EntryKind::Reject,
+                Outcome::Hold => EntryKind::Hold,
+            },
+            severity: decided.counts.as_ref().map(|c| c.severity),
+            sample_size: decided.counts.as_ref().map_or(0, |c| c.sample_size),
+            defectives: decided.counts.as_ref().map_or(0, |c| c.defectives),
+            aql_pct: decided.counts.as_ref().map_or(0.0, |c| c.aql_pct),
+            between_ac_and_re: decided.counts.as_ref().is_some_and(|c| c.between_ac_and_re),
+            note: None,
+        };
+        let next_severity = match (standing, rules) {
+            (Some(standing), Some(rules)) => {
+                if let Some(transition) = standing.feed(&entry, rules, &conditions) {
+                    decided.grounds.push(format!(
+                        "under the scheme's switching rules this lot's outcome {} from its next lot on",
+                        transition_words(transition)
+                    ));
+                }
+                Some(if standing.state.discontinued {
+                    "discontinued".to_string()
+                } else {
+                    standing.state.severity.as_str().to_string()
+                })
+            }
+            _ => None,
+        };
+        shift_entries.push(entry);
         let lot_file = sanitize(&listed.lot);
         let report_html = format!("lots/{lot_file}.html");
         let report_md = format!("lots/{lot_file}.md");
@@ -294,6 +371,7 @@ pub fn run_shift(
             failed: count(&tests, Verdict::Fail),
             invalid: count(&tests, Verdict::Invalid),
             plan: decided.plan.clone(),
+            next_severity,
             rate: decided.rate.as_ref().map(rate_summary),
             grounds: decided.grounds.clone(),
             report_html: report_html.clone(),
@@ -329,7 +407,7 @@ pub fn run_shift(
     }
 
     let shift_view = report::ShiftSummary {
-        shift,
+        shift: shift.clone(),
         generated_at,
         files_total: summary.files_total,
         files_accepted: summary.files_accepted,
@@ -347,6 +425,15 @@ pub fn run_shift(
     write(&out_dir.join("tests.csv"), &csv, &mut written)?;
     let json = serde_json::to_string_pretty(&summary).map_err(|e| ShiftError::Output(e.to_string()))?;
     write(&out_dir.join("summary.json"), &json, &mut written)?;
+    // Last, so that the record only ever holds lots whose reports exist.
+    if let Some(record) = &mut record {
+        record.replace_shift(&shift, shift_entries);
+        record.save().map_err(|e| {
+            ShiftError::History(format!(
+                "the reports are written, but the lots could not be added to the switching record: {e}"
+            ))
+        })?;
+    }
     Ok(ShiftOutcome { summary, written })
 }
 
@@ -367,7 +454,8 @@ fn sanitize(lot: &str) -> String {
     }
 }
 
-fn generated_stamp() -> String {
+/// The current UTC time as RFC 3339, for stamping outputs and record entries.
+pub fn utc_stamp() -> String {
     let now = time::OffsetDateTime::now_utc();
     now.format(&time::format_description::well_known::Rfc3339)
         .unwrap_or_else(|_| now.unix_timestamp().to_string())
@@ -379,6 +467,7 @@ type OcChart = (Vec<(f64, f64)>, Option<(f64, f64)>);
 /// Everything decided about one lot.
 struct DecidedLot {
     outcome: Outcome,
+    counts: Option<SwitchingCounts>,
     grounds: Vec<String>,
     plan: Option<PlanSummary>,
     plan_view: report::PlanView,
@@ -391,6 +480,7 @@ struct DecidedLot {
 fn hold(grounds: Vec<String>) -> DecidedLot {
     DecidedLot {
         outcome: Outcome::Hold,
+        counts: None,
         grounds,
         plan: None,
         plan_view: report::PlanView::default(),
@@ -404,11 +494,49 @@ fn hold(grounds: Vec<String>) -> DecidedLot {
 /// Sampling schemes by plugin name, loaded once per run.
 type Schemes = BTreeMap<String, Result<Scheme, String>>;
 
+/// Where the lot's part stands under the switching rules when the lot comes up.
+struct LotSwitching {
+    severity: Severity,
+    discontinued: bool,
+    /// How the part came to that severity, for the grounds.
+    ground: String,
+}
+
+/// What the switching record keeps of a decided lot: the plan shown and its count.
+struct SwitchingCounts {
+    severity: Severity,
+    sample_size: u64,
+    defectives: u64,
+    aql_pct: f64,
+    between_ac_and_re: bool,
+}
+
+/// The switching rules of the scheme the part's spec names, when that scheme loaded.
+fn part_rules<'a>(spec: &PartSpec, schemes: &'a Schemes) -> Option<&'a SwitchingRules> {
+    let sampling = spec.sampling.as_ref()?;
+    match schemes.get(&sampling.scheme) {
+        Some(Ok(scheme)) => Some(&scheme.switching),
+        _ => None,
+    }
+}
+
+fn transition_words(transition: twistlot_sampling::Transition) -> &'static str {
+    use twistlot_sampling::Transition::*;
+    match transition {
+        ToTightened => "moves the part to tightened inspection",
+        TightenedToNormal => "returns the part to normal inspection",
+        ToReduced => "moves the part to reduced inspection",
+        ReducedToNormal => "returns the part from reduced to normal inspection",
+        Discontinue => "discontinues acceptance under the scheme until corrective action",
+    }
+}
+
 fn decide_lot(
     listed: &ListedLot,
     tests: &[TestResult],
     spec: Option<(&PartSpec, &Path)>,
     schemes: &Schemes,
+    switching: Option<&LotSwitching>,
 ) -> DecidedLot {
     let Some((spec, spec_path)) = spec else {
         return hold(vec![format!("no spec for part `{}` in the plant's parts folder", listed.part)]);
@@ -425,6 +553,18 @@ fn decide_lot(
         None => return hold(vec![format!("there is no sampling-scheme plugin named `{}`", sampling.scheme)]),
     };
     let mut grounds = Vec::new();
+    if let Some(switching) = switching {
+        grounds.push(switching.ground.clone());
+        if switching.discontinued {
+            grounds.push(format!(
+                "acceptance under `{}` is discontinued for part {}: no lot is accepted until the \
+                 supplier's corrective action is recorded with `twistlot switching resume {}`",
+                scheme.name, spec.part, spec.part
+            ));
+            return hold(grounds);
+        }
+    }
+    let severity = switching.map_or(Severity::Normal, |s| s.severity);
     let wrong_part: Vec<&str> = tests
         .iter()
         .filter(|t| t.part.as_deref() != Some(spec.part.as_str()))
@@ -452,11 +592,10 @@ fn decide_lot(
         limits: limits_for(spec, &v.characteristic).unwrap_or_default(),
         values: tests.iter().filter_map(|t| value_for(t, &v.characteristic)).collect(),
     });
-    // Switching history across shifts is not stored yet: every lot starts on normal inspection.
     let evidence = LotEvidence {
         lot_size: listed.quantity,
         sampling: sampling.clone(),
-        severity: Severity::Normal,
+        severity,
         tests: evidence_tests,
         variables,
     };
@@ -474,6 +613,7 @@ fn decide_lot(
     grounds.extend(disposition.grounds.iter().cloned());
 
     // The plan shown is the one that asks for the most parts; its class's defectives give the OC point.
+    // Its severity is the lot's: a zero-acceptance class keeps the normal sample under reduced.
     let shown =
         disposition.plans.iter().max_by_key(|(class, plan)| (plan.sample_size, std::cmp::Reverse(**class)));
     let plan = shown.map(|(_, p)| PlanSummary {
@@ -481,7 +621,7 @@ fn decide_lot(
         sample_size: p.sample_size,
         accept: Some(p.accept),
         reject: Some(p.reject),
-        severity: p.severity.as_str().to_string(),
+        severity: severity.as_str().to_string(),
     });
     let plan_view = match shown {
         Some((class, p)) => report::PlanView {
@@ -496,7 +636,7 @@ fn decide_lot(
             accept: Some(p.accept),
             reject: Some(p.reject),
             acceptability_k: disposition.variables.as_ref().and_then(|v| v.k),
-            severity: p.severity.as_str().to_string(),
+            severity: severity.as_str().to_string(),
         },
         None => report::PlanView { scheme: scheme.name.clone(), ..report::PlanView::default() },
     };
@@ -541,8 +681,28 @@ fn decide_lot(
             capability(&values, torque.limits()),
         ));
     }
+    // The reduced-inspection limit number is set by an AQL, so the record keeps the count of the
+    // class with the strictest AQL plan; with no AQL plan, that of the plan shown.
+    let aql_of = |class: &CharacteristicClass| match class_plan(sampling, *class) {
+        ClassPlan::Attribute { aql_pct } => Some(*aql_pct),
+        _ => None,
+    };
+    let strictest = disposition
+        .plans
+        .iter()
+        .filter_map(|(class, p)| aql_of(class).map(|aql| (aql, class, p)))
+        .min_by(|a, b| a.0.total_cmp(&b.0).then(b.2.sample_size.cmp(&a.2.sample_size)))
+        .map(|(_, class, p)| (class, p));
+    let counts = strictest.or(shown).map(|(class, p)| SwitchingCounts {
+        severity: p.severity,
+        sample_size: p.sample_size,
+        defectives: disposition.classes.iter().find(|c| c.class == *class).map_or(0, |c| c.defectives),
+        aql_pct: aql_of(class).unwrap_or(0.0),
+        between_ac_and_re: disposition.reinstate_normal,
+    });
     DecidedLot {
         outcome,
+        counts,
         grounds,
         plan,
         plan_view,

@@ -140,10 +140,14 @@ pub struct Disposition {
     pub invalid_tests: u64,
 }
 
+/// The c = 0 plan: the normal table's sample size for the letter at every severity (the tightened
+/// table has the same sizes, and a critical characteristic is never sampled less under reduced
+/// inspection, so under reduced it is labelled normal).
 fn zero_acceptance_plan(
     scheme: &Scheme,
     lot_size: u64,
     level: InspectionLevel,
+    severity: Severity,
 ) -> Result<AttributePlan, SamplingError> {
     let letter = scheme.code_letter(lot_size, level)?;
     let table_n = scheme
@@ -158,7 +162,7 @@ fn zero_acceptance_plan(
         sample_size: table_n.min(lot_size),
         accept: 0,
         reject: 1,
-        severity: Severity::Normal,
+        severity: if severity == Severity::Reduced { Severity::Normal } else { severity },
         hundred_percent: table_n >= lot_size,
     })
 }
@@ -189,7 +193,9 @@ pub fn dispose(evidence: &LotEvidence, scheme: &Scheme) -> Result<Disposition, S
             ClassPlan::Attribute { aql_pct } => {
                 scheme.plan(evidence.lot_size, level, *aql_pct, evidence.severity)?
             }
-            ClassPlan::ZeroAcceptance => zero_acceptance_plan(scheme, evidence.lot_size, level)?,
+            ClassPlan::ZeroAcceptance => {
+                zero_acceptance_plan(scheme, evidence.lot_size, level, evidence.severity)?
+            }
         };
         let n = plan.sample_size;
         let counted: Vec<&&TestEvidence> = valid.iter().take(n as usize).collect();
@@ -458,6 +464,20 @@ mod tests {
         let d = dispose(&evidence, &scheme()).unwrap();
         assert_eq!(d.outcome, Outcome::Reject);
         assert!(d.grounds[0].starts_with("critical: 1 defective in 80 tested, Ac 0 Re 1"), "{:?}", d.grounds);
+    }
+
+    #[test]
+    fn zero_acceptance_keeps_its_sample_size_at_every_severity() {
+        let mut evidence = lot(tests_with(80, 0));
+        evidence.sampling.critical = ClassPlan::ZeroAcceptance;
+        for (severity, label) in
+            [(Severity::Tightened, Severity::Tightened), (Severity::Reduced, Severity::Normal)]
+        {
+            evidence.severity = severity;
+            let d = dispose(&evidence, &scheme()).unwrap();
+            let plan = &d.plans[&CharacteristicClass::Critical];
+            assert_eq!((plan.sample_size, plan.accept, plan.severity), (80, 0, label), "{severity}");
+        }
     }
 
     #[test]

@@ -99,6 +99,8 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
     assert_eq!(lot(&summary, "L2612-040")["next_severity"], "tightened");
     assert_eq!(severity("L2612-041"), "tightened");
     assert_eq!(severity("L2612-050"), "normal");
+    let shift_html = std::fs::read_to_string(out.path().join("shift_summary.html")).unwrap();
+    assert!(shift_html.contains("normal → tightened"), "the summary shows where L2612-040 sends its part");
     // The shipped record already holds this shift's lots, so the run leaves it as it was.
     assert_eq!(
         std::fs::read_to_string(history.path().join("switching.jsonl")).unwrap(),

@@ -456,18 +456,11 @@ fn shift(args: ShiftArgs) -> Result<ExitCode> {
         "grounds",
     ]);
     for lot in &summary.lots {
-        let used = lot.plan.as_ref().map(|p| p.severity.clone());
-        let severity = match (used, &lot.next_severity) {
-            (Some(used), Some(next)) if *next != used => format!("{used} → {next}"),
-            (Some(used), _) => used,
-            (None, Some(next)) => format!("→ {next}"),
-            (None, None) => "-".to_string(),
-        };
         table.row(vec![
             lot.lot.clone(),
             lot.part.clone(),
             lot.quantity.to_string(),
-            severity,
+            lot.severity_label(),
             lot.tested.to_string(),
             lot.failed.to_string(),
             lot.invalid.to_string(),

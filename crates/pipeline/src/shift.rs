@@ -142,6 +142,19 @@ pub struct LotSummary {
     pub report_md: String,
 }
 
+impl LotSummary {
+    /// The severity the lot was inspected under, and the next lot's when this one changed it.
+    pub fn severity_label(&self) -> String {
+        let used = self.plan.as_ref().map(|p| p.severity.clone());
+        match (used, &self.next_severity) {
+            (Some(used), Some(next)) if *next != used => format!("{used} → {next}"),
+            (Some(used), _) => used,
+            (None, Some(next)) => format!("→ {next}"),
+            (None, None) => "-".to_string(),
+        }
+    }
+}
+
 /// A rejected file in `summary.json`.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct RejectedSummary {
@@ -389,6 +402,7 @@ pub fn run_shift(
             tested: lot_summary.tested,
             failed: lot_summary.failed,
             invalid: lot_summary.invalid,
+            severity: lot_summary.severity_label(),
             report_file: Some(report_html),
             grounds: decided.grounds.clone(),
         });

@@ -199,6 +199,9 @@ pub struct LotLine {
     pub failed: u64,
     /// Parts that could not be judged.
     pub invalid: u64,
+    /// Inspection severity used, and the next lot's when this lot changed it ("normal → tightened").
+    #[serde(default)]
+    pub severity: String,
     /// The lot report's file name, relative to the summary's folder.
     pub report_file: Option<String>,
     /// Why the decision is what it is.

@@ -1,14 +1,15 @@
 //! Runs twistlot's jobs end to end; the only crate that knows all the others.
 //!
 //! For: finding and validating plugins ([`plugins`]), loading the plant config
-//! and its part specs ([`plant`]), and evaluating exports against their specs
-//! ([`evaluate`]), running a shift ([`shift`]) and keeping each part's switching
-//! record between shifts ([`switching`]): ingest pushes each export into the evaluator, which keeps one
-//! result row per test and drops the curve.
+//! and its part specs ([`plant`]), evaluating exports against their specs
+//! ([`evaluate`]: ingest pushes each export into the evaluator, which keeps one
+//! result row per test and drops the curve), running a shift ([`shift`]), and
+//! keeping each part's switching record between shifts ([`switching`]).
 //!
 //! Not for: computations (layer-1 crates), rendering (report) or printing (cli).
 //!
-//! Main types: [`PluginCatalog`], [`Plant`], [`SpecLibrary`], [`TestResult`].
+//! Main types: [`PluginCatalog`], [`Plant`], [`SpecLibrary`], [`TestResult`],
+//! [`ShiftSummaryJson`], [`SwitchingRecord`].
 
 pub mod evaluate;
 pub mod plant;

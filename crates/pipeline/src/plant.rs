@@ -116,6 +116,13 @@ fn read(path: &Path) -> Result<String, PlantError> {
 }
 
 impl Plant {
+    /// The folders plugins are read from: the shipped `plugins/` first, then the plant's own.
+    pub fn plugin_folders(&self) -> Vec<PathBuf> {
+        let mut folders = vec![crate::plugins::shipped_plugins_dir()];
+        folders.extend(self.plugin_dirs.iter().cloned());
+        folders
+    }
+
     /// Loads and resolves a plant config.
     pub fn load(path: &Path) -> Result<Plant, PlantError> {
         let text = read(path)?;

@@ -8,8 +8,11 @@
 
 use crate::evaluate::{evaluate_files, EvaluateOptions, Evaluated, SpecSource, TestResult};
 use crate::plant::{Plant, PlantError, SpecLibrary};
-use crate::plugins::{check_manifests, shipped_plugins_dir, PluginCatalog};
-use crate::switching::{describe_standing, EntryKind, PartStanding, SwitchingEntry, SwitchingRecord};
+use crate::plugins::{check_manifests, PluginCatalog};
+use crate::switching::{
+    describe_standing, part_rules, transition_consequence, EntryKind, PartStanding, SwitchingEntry,
+    SwitchingRecord,
+};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -20,8 +23,7 @@ use twistlot_model::yaml::parse_document;
 use twistlot_model::{CharacteristicClass, Limits, Manifest, PartSpec, PluginKind, Verdict};
 use twistlot_report as report;
 use twistlot_sampling::{
-    attribute_oc, dispose, LotEvidence, Outcome, Scheme, Severity, SwitchingRules, TestEvidence,
-    VariablesEvidence,
+    attribute_oc, dispose, LotEvidence, Outcome, Scheme, Severity, TestEvidence, VariablesEvidence,
 };
 use twistlot_stats::{capability, Capability, CheckSet};
 
@@ -225,9 +227,7 @@ pub fn run_shift(
     out_dir: &Path,
     progress: &(dyn Fn(usize, usize) + Sync),
 ) -> Result<ShiftOutcome, ShiftError> {
-    let mut folders = vec![shipped_plugins_dir()];
-    folders.extend(plant.plugin_dirs.iter().cloned());
-    let catalog = PluginCatalog::discover(&folders);
+    let catalog = PluginCatalog::discover(&plant.plugin_folders());
     if let Some(err) = catalog.errors().first() {
         return Err(ShiftError::Plugins(format!("a plugin does not load, fix it first: {err}")));
     }
@@ -352,7 +352,7 @@ pub fn run_shift(
                 if let Some(transition) = standing.feed(&entry, rules, &conditions) {
                     decided.grounds.push(format!(
                         "under the scheme's switching rules this lot's outcome {} from its next lot on",
-                        transition_words(transition)
+                        transition_consequence(transition)
                     ));
                 }
                 Some(if standing.state.discontinued {
@@ -523,26 +523,6 @@ struct SwitchingCounts {
     defectives: u64,
     aql_pct: f64,
     between_ac_and_re: bool,
-}
-
-/// The switching rules of the scheme the part's spec names, when that scheme loaded.
-fn part_rules<'a>(spec: &PartSpec, schemes: &'a Schemes) -> Option<&'a SwitchingRules> {
-    let sampling = spec.sampling.as_ref()?;
-    match schemes.get(&sampling.scheme) {
-        Some(Ok(scheme)) => Some(&scheme.switching),
-        _ => None,
-    }
-}
-
-fn transition_words(transition: twistlot_sampling::Transition) -> &'static str {
-    use twistlot_sampling::Transition::*;
-    match transition {
-        ToTightened => "moves the part to tightened inspection",
-        TightenedToNormal => "returns the part to normal inspection",
-        ToReduced => "moves the part to reduced inspection",
-        ReducedToNormal => "returns the part from reduced to normal inspection",
-        Discontinue => "discontinues acceptance under the scheme until corrective action",
-    }
 }
 
 fn decide_lot(

@@ -7,7 +7,7 @@
 //! shift's own entries instead of counting its lots twice.
 
 use crate::plant::{Plant, SpecLibrary};
-use crate::plugins::{shipped_plugins_dir, PluginCatalog};
+use crate::plugins::PluginCatalog;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -161,31 +161,12 @@ impl SwitchingRecord {
         conditions: &Conditions,
     ) -> PartStanding {
         let end = self.entries.iter().position(|e| e.shift == shift).unwrap_or(self.entries.len());
-        let mut standing = PartStanding::fresh();
-        for entry in self.entries[..end].iter().filter(|e| e.part == part && e.shift != shift) {
-            standing.feed(entry, rules, conditions);
-        }
-        standing
+        replay(&self.entries[..end], part, rules, conditions)
     }
 
     /// Replays every entry of `part`: where it stands now.
     pub fn standing_now(&self, part: &str, rules: &SwitchingRules, conditions: &Conditions) -> PartStanding {
-        let mut standing = PartStanding::fresh();
-        for entry in self.entries.iter().filter(|e| e.part == part) {
-            standing.feed(entry, rules, conditions);
-        }
-        standing
-    }
-
-    /// Part numbers in the record, in order of first appearance.
-    pub fn parts(&self) -> Vec<String> {
-        let mut parts: Vec<String> = Vec::new();
-        for entry in &self.entries {
-            if !parts.contains(&entry.part) {
-                parts.push(entry.part.clone());
-            }
-        }
-        parts
+        replay(&self.entries, part, rules, conditions)
     }
 
     /// Replaces `shift`'s lot entries with `entries`, keeping the shift's place in the record.
@@ -221,6 +202,20 @@ impl SwitchingRecord {
         std::fs::write(&temporary, text).map_err(|e| io(format!("cannot write: {e}")))?;
         std::fs::rename(&temporary, &self.path).map_err(|e| io(format!("cannot replace: {e}")))
     }
+}
+
+/// Feeds `part`'s entries among `entries`, oldest first, to a fresh standing.
+fn replay(
+    entries: &[SwitchingEntry],
+    part: &str,
+    rules: &SwitchingRules,
+    conditions: &Conditions,
+) -> PartStanding {
+    let mut standing = PartStanding::fresh();
+    for entry in entries.iter().filter(|e| e.part == part) {
+        standing.feed(entry, rules, conditions);
+    }
+    standing
 }
 
 impl PartStanding {
@@ -333,18 +328,28 @@ fn open_plant_record(
         .as_deref()
         .ok_or_else(|| SwitchingError::NoHistory(plant.path.display().to_string()))?;
     let record = SwitchingRecord::load(history)?;
-    let mut folders = vec![shipped_plugins_dir()];
-    folders.extend(plant.plugin_dirs.iter().cloned());
-    let schemes = PluginCatalog::discover(&folders).sampling_schemes();
+    let schemes = PluginCatalog::discover(&plant.plugin_folders()).sampling_schemes();
     let specs = SpecLibrary::load_dir(&plant.parts_dir)?;
-    let mut rules = BTreeMap::new();
-    for part in specs.parts() {
-        let scheme = specs.get(part).and_then(|e| e.spec.sampling.as_ref()).map(|s| s.scheme.clone());
-        if let Some(Some(Ok(scheme))) = scheme.map(|name| schemes.get(&name)) {
-            rules.insert(part.to_string(), scheme.switching.clone());
-        }
-    }
+    let rules = specs
+        .parts()
+        .filter_map(|part| {
+            let spec = &specs.get(part)?.spec;
+            part_rules(spec, &schemes).map(|rules| (part.to_string(), rules.clone()))
+        })
+        .collect();
     Ok((record, rules))
+}
+
+/// The switching rules of the scheme the part's spec names, when that scheme loaded.
+pub(crate) fn part_rules<'a>(
+    spec: &twistlot_model::PartSpec,
+    schemes: &'a BTreeMap<String, Result<twistlot_sampling::Scheme, String>>,
+) -> Option<&'a SwitchingRules> {
+    let sampling = spec.sampling.as_ref()?;
+    match schemes.get(&sampling.scheme) {
+        Some(Ok(scheme)) => Some(&scheme.switching),
+        _ => None,
+    }
 }
 
 fn standing_row(
@@ -383,6 +388,17 @@ fn transition_name(transition: Transition) -> &'static str {
         Transition::ToReduced => "to reduced",
         Transition::ReducedToNormal => "reduced to normal",
         Transition::Discontinue => "discontinued",
+    }
+}
+
+/// What a transition does to the part, in words for a lot's grounds.
+pub fn transition_consequence(transition: Transition) -> &'static str {
+    match transition {
+        Transition::ToTightened => "moves the part to tightened inspection",
+        Transition::TightenedToNormal => "returns the part to normal inspection",
+        Transition::ToReduced => "moves the part to reduced inspection",
+        Transition::ReducedToNormal => "returns the part from reduced to normal inspection",
+        Transition::Discontinue => "discontinues acceptance under the scheme until corrective action",
     }
 }
 

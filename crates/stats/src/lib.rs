@@ -13,19 +13,35 @@
 //!
 //! Main types: [`MetricOptions`], [`CurveMetrics`], [`MetricsError`], [`LinearFit`],
 //! [`CheckSet`], [`CheckError`], [`Judgement`], [`Capability`], [`CapabilityMethod`],
-//! [`Normality`].
+//! [`Normality`]; for trends across lots, [`XbarSChart`], [`EwmaChart`], [`CusumChart`],
+//! [`RuleSignal`], [`Drift`], [`LotAttribution`], [`WireStep`] and [`ControlError`].
 
 #![warn(missing_docs)]
 
 pub mod capability;
 pub mod checks;
+pub mod control;
+pub mod drift;
 pub mod fit;
 pub mod judge;
 pub mod metrics;
+pub mod run_rules;
 mod text;
+pub mod wire;
 
 pub use capability::{anderson_darling, capability, Capability, CapabilityMethod, Normality};
 pub use checks::{CheckError, CheckSet};
+pub use control::{
+    a3, b3, b4, c4, cusum, cusum_of_means, ewma, ewma_of_means, xbar_s_chart, ChartKind, ControlError,
+    CusumChart, CusumOptions, CusumPoint, CusumSignal, EwmaChart, EwmaOptions, EwmaPoint, EwmaSignal,
+    LimitSignal, Side, Subgroup, XbarSChart, XbarSOptions, XbarSPoint,
+};
+pub use drift::{drift, Drift, LimitSide, NoProjection, Projection};
 pub use fit::{linear_fit, LinearFit};
 pub use judge::{judge, judge_with, Judgement};
 pub use metrics::{angle_key, curve_metrics, CurveMetrics, MetricOptions, MetricsError};
+pub use run_rules::{run_rules, standardize, Rule, RuleSignal, NELSON, WESTERN_ELECTRIC};
+pub use wire::{
+    expected_rate_change, wire_attribution, wire_steps, ExpectedChange, Geometry, LotAttribution, LotRate,
+    WireBaseline, WireLotRate, WireStep,
+};

@@ -12,10 +12,12 @@
 //! [`write_layout`] (any declarative layout, from its manifest), [`DemoPlan`] and
 //! [`generate_shift`] (a whole shift), [`generate_bench`].
 
+pub mod decay;
 pub mod demo;
 pub mod spring;
 pub mod writer;
 
+pub use decay::{DecayError, DecayModel, DecayRecord};
 pub use demo::{generate_bench, generate_shift, DemoError, DemoPlan, GeneratedFile};
 pub use spring::SpringModel;
 pub use writer::{printed_resolution, write_gantry_json, write_layout, WriteError, WriteStyle};

@@ -19,11 +19,15 @@
 use std::path::{Path, PathBuf};
 
 /// The workspace's root folder (where `plugins/` and `sample_lots/` are).
+///
+/// Read from the `CARGO_MANIFEST_DIR` that cargo sets when it runs a test, not the one
+/// baked in at compile time, so a test binary built in another checkout (a shared build
+/// cache) still reads this checkout's files.
 pub fn workspace_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("..").canonicalize().unwrap_or_else(|_| {
-        // canonicalize only fails if the folder vanished; the joined path still names it.
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("..")
-    })
+    let manifest_dir = std::env::var_os("CARGO_MANIFEST_DIR")
+        .map_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")), PathBuf::from);
+    // canonicalize only fails if the folder vanished; the joined path still names it.
+    manifest_dir.join("..").canonicalize().unwrap_or_else(|_| manifest_dir.join(".."))
 }
 
 /// The shipped demo shift.

@@ -7,10 +7,17 @@ use twistlot_tests::{ingest_json, row_for, twistlot, Batch};
 /// Ingests a folder holding `name` (with `bytes`) and one good native export; checks the
 /// good one is accepted, the bad one rejected, exit status 3; returns the bad one's reason.
 fn rejected_beside_a_good_file(name: &str, bytes: &[u8]) -> String {
+    rejected_beside_a_good_file_with(name, bytes, &[])
+}
+
+/// As [`rejected_beside_a_good_file`], with more arguments for `twistlot ingest`.
+fn rejected_beside_a_good_file_with(name: &str, bytes: &[u8], extra: &[&std::ffi::OsStr]) -> String {
     let batch = Batch::new();
     let good = batch.write_good("good.csv", "GOOD-1", 9);
     let bad = batch.write(name, bytes);
-    let (code, rows) = ingest_json(&[batch.path().as_os_str()]);
+    let mut args = vec![batch.path().as_os_str()];
+    args.extend_from_slice(extra);
+    let (code, rows) = ingest_json(&args);
     assert_eq!(code, 3, "{name}: one file rejected: {rows:#?}");
     assert_eq!(rows.len(), 2, "{name}: {rows:#?}");
     let good_row = row_for(&rows, &good);
@@ -154,8 +161,8 @@ fn a_bad_stroke_label() {
 fn an_unrecognised_file() {
     let reason = rejected_beside_a_good_file("other.csv", b"Winkel;Moment\n1;2\n");
     assert_has(&reason, &["recognises", "--rig-format"]);
-    // It says which formats it tried.
-    assert_has(&reason, &["native", "korvel-tab", "ostrel-semi", "pellam-fixed", "gantry-json"]);
+    // It says which formats it tried: the built-in ones, as no plugin folder was named.
+    assert_has(&reason, &["native", "korvel-tab", "ostrel-semi", "pellam-fixed"]);
 }
 
 #[test]
@@ -166,9 +173,16 @@ fn binary_junk() {
 
 #[test]
 fn a_failing_exec_converter_is_named() {
-    let reason = rejected_beside_a_good_file("x.tqj", br#"{"format": "gantry-tq/9"}"#);
+    // The converter is the demo plant's own plugin, active where its folder is named.
+    let folder = twistlot_tests::workspace_root().join("sample_lots/plugins");
+    let extra = [std::ffi::OsStr::new("--plugins"), folder.as_os_str()];
+    let reason = rejected_beside_a_good_file_with("x.tqj", br#"{"format": "gantry-tq/9"}"#, &extra);
     assert_has(&reason, &["exited with 1", "not a gantry-tq/1 document", "`gantry-json`"]);
-    let reason = rejected_beside_a_good_file("y.tqj", br#"{"format": "gantry-tq/1", "samples": [[0, 1]]}"#);
+    let reason = rejected_beside_a_good_file_with(
+        "y.tqj",
+        br#"{"format": "gantry-tq/1", "samples": [[0, 1]]}"#,
+        &extra,
+    );
     assert_has(&reason, &["sample 0 has 2 values", "`gantry-json`"]);
 }
 
@@ -312,46 +326,101 @@ fn a_malformed_plugin_manifest_is_reported_with_file_line_and_field() {
         "line {line} is not between {layout_line} and {typo_line}"
     );
     assert!(stdout.contains("invalid"), "the listing marks it invalid:\n{stdout}");
-    // The shipped plugins are still listed as valid.
-    assert!(stdout.contains("korvel-tab") && stdout.contains("valid"), "{stdout}");
+    // The built-in plugins are still listed as in force.
+    assert!(stdout.contains("korvel-tab") && stdout.contains("active"), "{stdout}");
 
-    // Ingest still runs with the manifest that loads, and warns about the one that does not.
+    // A run does not guess around a broken plugin: ingest refuses and names the manifest.
     let batch = Batch::new();
     batch.write_good("good.csv", "G-1", 4);
-    twistlot()
-        .arg("ingest")
-        .arg(batch.path())
-        .arg("--plugins")
-        .arg(plugins.path())
-        .assert()
-        .code(0)
-        .stderr(predicate::str::contains("plugin not loaded").and(predicate::str::contains(file.as_str())));
+    twistlot().arg("ingest").arg(batch.path()).arg("--plugins").arg(plugins.path()).assert().code(1).stderr(
+        predicate::str::contains("a plugin does not load").and(predicate::str::contains(file.as_str())),
+    );
 }
 
 #[test]
-fn the_shipped_plugins_all_validate() {
-    let output = twistlot().args(["plugins", "--format", "json"]).output().unwrap();
+fn the_built_in_plugins_need_no_folder_and_the_demo_plugins_all_validate() {
+    let output =
+        twistlot().args(["plugins", "--format", "json"]).current_dir(std::env::temp_dir()).output().unwrap();
     assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
     let rows: Vec<serde_json::Value> = serde_json::from_slice(&output.stdout).unwrap();
     let names: Vec<&str> = rows.iter().filter_map(|r| r["name"].as_str()).collect();
-    for name in ["native", "korvel-tab", "ostrel-semi", "pellam-fixed", "gantry-json"] {
-        assert!(names.contains(&name), "{name} missing from {names:?}");
+    assert_eq!(names, ["native", "korvel-tab", "ostrel-semi", "pellam-fixed", "mil-std-105e"]);
+    assert!(rows.iter().all(|r| r["status"] == "active" && r["source"] == "built in"), "{rows:#?}");
+
+    let plant = twistlot_tests::workspace_root().join("sample_lots/plant.yaml");
+    let output = twistlot().args(["plugins", "--format", "json", "--plant"]).arg(&plant).output().unwrap();
+    assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
+    let rows: Vec<serde_json::Value> = serde_json::from_slice(&output.stdout).unwrap();
+    let status = |name: &str| rows.iter().find(|r| r["name"] == name).map(|r| r["status"].clone());
+    for name in ["gantry-json", "append-jsonl", "torque-ratio", "tight-hysteresis"] {
+        assert_eq!(status(name), Some("active".into()), "{name}: {rows:#?}");
+        let row = rows.iter().find(|r| r["name"] == name).unwrap();
+        assert!(row["source"].as_str().unwrap().ends_with("plugins"), "{row}");
     }
-    assert!(rows.iter().all(|r| r["status"] == "valid"), "{rows:#?}");
 }
 
 #[test]
-fn two_manifests_with_one_name_are_a_clash() {
+fn a_check_the_plant_does_not_name_is_listed_as_inactive() {
+    let plugins = tempfile::tempdir().unwrap();
+    std::fs::write(
+        plugins.path().join("limit.yaml"),
+        "name: plant-limit\nkind: check\napi: 1\ndescription: d\nparts: []\nexpression: metrics.max_torque_nmm < 5\nmessage: m\nclass: minor\n",
+    )
+    .unwrap();
+    let output =
+        twistlot().args(["plugins", "--format", "json", "--plugins"]).arg(plugins.path()).output().unwrap();
+    assert_eq!(output.status.code(), Some(0));
+    let rows: Vec<serde_json::Value> = serde_json::from_slice(&output.stdout).unwrap();
+    let row = rows.iter().find(|r| r["name"] == "plant-limit").unwrap();
+    assert_eq!(row["status"], "inactive", "{row}");
+    // Evaluate applies it only when asked to: without `--check` every part passes it.
+    let batch = Batch::new();
+    batch.write_good("good.csv", "G-1", 9);
+    let spec = twistlot_tests::workspace_root().join("sample_lots/parts/TS-2210.yaml");
+    let run = |extra: &[&str]| {
+        let output = twistlot()
+            .arg("evaluate")
+            .arg(batch.path())
+            .arg("--spec")
+            .arg(&spec)
+            .arg("--plugins")
+            .arg(plugins.path())
+            .args(extra)
+            .args(["--format", "json"])
+            .output()
+            .unwrap();
+        let rows: Vec<serde_json::Value> = serde_json::from_slice(&output.stdout).unwrap();
+        rows[0]["findings"].as_array().unwrap().iter().any(|f| f["characteristic"] == "plant-limit")
+    };
+    assert!(!run(&[]));
+    assert!(run(&["--check", "plant-limit"]));
+}
+
+#[test]
+fn a_folder_copy_of_a_built_in_overrides_it_and_two_in_one_folder_clash() {
     let plugins = tempfile::tempdir().unwrap();
     let shipped = twistlot_tests::workspace_root().join("plugins/rig-formats/native.yaml");
     std::fs::copy(&shipped, plugins.path().join("copy.yaml")).unwrap();
+    let output =
+        twistlot().args(["plugins", "--format", "json", "--plugins"]).arg(plugins.path()).output().unwrap();
+    assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
+    let rows: Vec<serde_json::Value> = serde_json::from_slice(&output.stdout).unwrap();
+    let natives: Vec<&serde_json::Value> = rows.iter().filter(|r| r["name"] == "native").collect();
+    assert_eq!(natives.len(), 2);
+    assert_eq!(
+        (natives[0]["source"].as_str(), natives[0]["status"].as_str()),
+        (Some("built in"), Some("overridden"))
+    );
+    assert_eq!(natives[1]["status"], "active");
+
+    std::fs::copy(&shipped, plugins.path().join("copy-2.yaml")).unwrap();
     twistlot()
         .args(["plugins", "--plugins"])
         .arg(plugins.path())
         .assert()
         .code(3)
         .stderr(predicate::str::contains("`native`").and(predicate::str::contains("copy.yaml")));
-    // Ingest cannot choose between them, so it cannot run at all.
+    // A run cannot choose between them, so it does not run at all.
     let batch = Batch::new();
     batch.write_good("good.csv", "G-1", 4);
     twistlot()
@@ -361,7 +430,7 @@ fn two_manifests_with_one_name_are_a_clash() {
         .arg(plugins.path())
         .assert()
         .code(1)
-        .stderr(predicate::str::contains("copy.yaml"));
+        .stderr(predicate::str::contains("copy"));
 }
 
 #[test]

@@ -99,13 +99,14 @@ fn plugins_csv_quotes_descriptions_with_commas() {
     let (code, text) = stdout_of(twistlot().args(["plugins", "--format", "csv"]));
     assert_eq!(code, 0);
     let records = parse_csv(&text).unwrap_or_else(|e| panic!("not valid CSV ({e}):\n{text}"));
-    assert_eq!(records[0], ["kind", "name", "status", "file", "description / error"]);
+    assert_eq!(records[0], ["kind", "name", "status", "source", "file", "description / note"]);
     let native = records.iter().find(|r| r[1] == "native").expect("native is listed");
     assert_eq!(native[0], "rig-format");
-    assert_eq!(native[2], "valid");
+    assert_eq!(native[2], "active");
+    assert_eq!(native[3], "built in");
     // The shipped description holds commas and backticks.
     let manifest =
         std::fs::read_to_string(twistlot_tests::workspace_root().join("plugins/rig-formats/native.yaml"))
             .unwrap();
-    assert!(native[4].contains(',') && manifest.contains(&native[4]), "{native:?}");
+    assert!(native[5].contains(',') && manifest.contains(&native[5]), "{native:?}");
 }

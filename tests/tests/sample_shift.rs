@@ -9,7 +9,11 @@ use twistlot_tests::{files_under, ingest_json, row_for, sample_shift_dir};
 /// The shift is read once and shared by the tests of this file (they only look).
 fn ingest_shift() -> &'static (i32, Vec<serde_json::Value>) {
     static RESULT: OnceLock<(i32, Vec<serde_json::Value>)> = OnceLock::new();
-    RESULT.get_or_init(|| ingest_json(&[sample_shift_dir().as_os_str()]))
+    // The demo plant's config names its own plugin folder, which holds rig D's converter.
+    let plant = twistlot_tests::workspace_root().join("sample_lots/plant.yaml");
+    RESULT.get_or_init(|| {
+        ingest_json(&[sample_shift_dir().as_os_str(), std::ffi::OsStr::new("--plant"), plant.as_os_str()])
+    })
 }
 
 fn reason(row: &serde_json::Value) -> &str {

@@ -272,12 +272,27 @@ fn severity_carries_from_shift_to_shift_and_reruns_do_not_count_twice() {
     let plant = plant_with(root.path(), &format!("history: {}\n", history.display()));
     let record = history.join("switching.jsonl");
 
+    // A history folder that does not exist is refused (a typo must not restart every part
+    // on normal inspection) unless the run is told to start a new history there.
+    let dir = root.path().join("s1");
+    shift_of(&dir, "L-1", 1);
+    let refused = twistlot()
+        .args(["shift", dir.to_str().unwrap(), "--plant", plant.to_str().unwrap(), "--out"])
+        .arg(root.path().join("out-refused"))
+        .output()
+        .unwrap();
+    assert_eq!(refused.status.code(), Some(1));
+    let stderr = String::from_utf8_lossy(&refused.stderr);
+    assert!(stderr.contains("does not exist") && stderr.contains("--init-history"), "{stderr}");
+    assert!(!history.exists());
+
     // MIL-STD-105E §8.3 (normal → tightened): 2 lots not accepted within 5 consecutive lots.
     let mut dispositions = Vec::new();
     for (shift, lot) in [("s1", "L-1"), ("s2", "L-2")] {
         let dir = root.path().join(shift);
         shift_of(&dir, lot, 1);
-        let (_, summary) = run_shift(&dir, &plant, &root.path().join(format!("out-{shift}")));
+        let out = root.path().join(format!("out-{shift}"));
+        let (_, summary) = run_shift_with(&dir, &plant, &out, &["--init-history"]);
         dispositions.push(summary["lots"][0]["disposition"].clone());
         assert_eq!(summary["lots"][0]["plan"]["severity"], "normal");
     }

@@ -61,16 +61,35 @@ fn walk(dir: &Path, files: &mut Vec<PathBuf>) -> Result<(), IngestError> {
     Ok(())
 }
 
-/// Reads every file in parallel and maps each outcome with `keep`, in input order.
-pub fn ingest_each<T, F>(files: &[PathBuf], formats: &FormatSet, forced: Option<&str>, keep: F) -> Vec<T>
-where
+/// Files read in parallel before their results are handed on, per worker thread: enough
+/// to keep every core busy, small enough that memory holds only a few results at a time.
+const FILES_IN_FLIGHT_PER_THREAD: usize = 8;
+
+/// Reads every file, maps each outcome with `map` on the worker threads (where the
+/// frame is turned into whatever the caller keeps, then dropped), and hands the mapped
+/// results to `consume` one by one, in input order, on the calling thread.
+///
+/// Only a bounded window of files is in flight at once, so memory does not grow with
+/// the number of files; the order makes every run's output the same.
+pub fn ingest_ordered<T, M, C>(
+    files: &[PathBuf],
+    formats: &FormatSet,
+    forced: Option<&str>,
+    map: M,
+    mut consume: C,
+) where
     T: Send,
-    F: Fn(FileOutcome) -> T + Sync + Send,
+    M: Fn(FileOutcome) -> T + Sync + Send,
+    C: FnMut(T),
 {
-    files
-        .par_iter()
-        .map(|path| keep(FileOutcome { path: path.clone(), result: read_path(path, formats, forced) }))
-        .collect()
+    let window = (rayon::current_num_threads() * FILES_IN_FLIGHT_PER_THREAD).max(1);
+    for chunk in files.chunks(window) {
+        let mapped: Vec<T> = chunk
+            .par_iter()
+            .map(|path| map(FileOutcome { path: path.clone(), result: read_path(path, formats, forced) }))
+            .collect();
+        mapped.into_iter().for_each(&mut consume);
+    }
 }
 
 /// Whether a file was read.

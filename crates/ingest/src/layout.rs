@@ -675,13 +675,19 @@ fn read_layout_with<'t>(
 
 #[cfg(test)]
 mod tests {
+    /// This crate's folder as cargo names it when running the test (not as compiled in),
+    /// so a test binary from a shared build cache reads this checkout's files.
+    fn crate_dir() -> std::path::PathBuf {
+        std::env::var_os("CARGO_MANIFEST_DIR")
+            .map_or_else(|| std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")), std::path::PathBuf::from)
+    }
+
     use super::*;
     use proptest::prelude::*;
     use twistlot_model::Manifest;
 
     fn layout(relative: &str) -> Layout {
-        let path =
-            std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../plugins/rig-formats").join(relative);
+        let path = crate_dir().join("../../plugins/rig-formats").join(relative);
         let text = std::fs::read_to_string(path).unwrap();
         match Manifest::from_yaml(relative, &text).unwrap() {
             Manifest::RigFormat(m) => m.layout.unwrap(),

@@ -24,7 +24,9 @@ pub mod read;
 pub mod strokes;
 pub mod text;
 
-pub use batch::{expand_inputs, flag_duplicate_serials, ingest_each, FileOutcome, FileStatus, FileSummary};
+pub use batch::{
+    expand_inputs, flag_duplicate_serials, ingest_ordered, FileOutcome, FileStatus, FileSummary,
+};
 pub use error::{FormatError, IngestError, RejectKind};
 pub use format::{FormatSet, Reader, RigFormat};
 pub use read::{curve_from_frame, read_bytes, read_path, read_with, Export};

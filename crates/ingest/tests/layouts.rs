@@ -8,12 +8,25 @@ use twistlot_model::plugin::RigFormatManifest;
 use twistlot_model::{CurveData, Manifest, Stroke};
 use twistlot_synth::{printed_resolution, write_gantry_json, write_layout, SpringModel, WriteStyle};
 
-fn plugins_dir() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("../../plugins/rig-formats")
+/// This crate's folder as cargo names it when running the test (not as compiled in),
+/// so a test binary from a shared build cache reads this checkout's files.
+fn crate_dir() -> std::path::PathBuf {
+    std::env::var_os("CARGO_MANIFEST_DIR")
+        .map_or_else(|| std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")), std::path::PathBuf::from)
+}
+
+/// The shipped declarative layouts, and the demo plant's exec converter.
+fn manifest_path(relative: &str) -> PathBuf {
+    let root = crate_dir().join("../..");
+    if relative.starts_with("gantry-json/") {
+        root.join("sample_lots/plugins/rig-formats").join(relative)
+    } else {
+        root.join("plugins/rig-formats").join(relative)
+    }
 }
 
 fn manifest(relative: &str) -> (RigFormatManifest, PathBuf) {
-    let path = plugins_dir().join(relative);
+    let path = manifest_path(relative);
     let text = std::fs::read_to_string(&path).unwrap();
     match Manifest::from_yaml(relative, &text).unwrap() {
         Manifest::RigFormat(m) => (*m, path),

@@ -3,22 +3,25 @@
 //! For: units and their conversion to the canonical N·mm and degrees
 //! ([`units`]), the canonical curve schema ([`curve`]), test metadata
 //! ([`metadata`]), part specs with tolerances and verdicts ([`spec`]), plugin
-//! manifests ([`plugin`]), YAML errors that name file, line and field ([`yaml`]), and
-//! the planning records: rigs ([`rig`]), the shift's lot list ([`lot_list`]) and
-//! plant-local times ([`plant_time`]).
+//! manifests ([`plugin`]), the result records every output reads ([`record`]), YAML
+//! errors that name file, line and field ([`yaml`]), and the planning records: rigs
+//! ([`rig`]), the shift's lot list ([`lot_list`]) and plant-local times ([`plant_time`]).
 //!
 //! Not for: reading files, running programs or computing results: this crate has
 //! no I/O, so every layer above can depend on it without pulling anything in.
 //!
 //! Main types: [`TorqueUnit`], [`AngleUnit`], [`CurveData`], [`TestMetadata`],
 //! [`PartSpec`], [`Verdict`], [`Finding`], [`Manifest`], [`DocumentError`], [`Rig`],
-//! [`LotList`], [`PlantTime`].
+//! [`LotList`], [`PlantTime`], and the records [`TestRecord`], [`LotRecord`],
+//! [`LotDecision`], [`ShiftRecord`] with the enums [`Disposition`], [`Severity`] and
+//! [`InspectionState`].
 
 pub mod curve;
 pub mod lot_list;
 pub mod metadata;
 pub mod plant_time;
 pub mod plugin;
+pub mod record;
 pub mod rig;
 pub mod spec;
 pub mod units;
@@ -30,6 +33,12 @@ pub use lot_list::{ListedLot, LotList};
 pub use metadata::TestMetadata;
 pub use plant_time::{BadTime, ClockTime, PlantTime};
 pub use plugin::{Manifest, PluginHeader, PluginKind};
+pub use record::{
+    AttributePlan, Capability, CapabilityMethod, CharacteristicStats, ClassDecision, CurveMetrics,
+    Disposition, DuplicateFile, Ground, GroundTopic, InspectionState, LotDecision, LotRecord, PlanSummary,
+    RateSummary, RejectedFile, Severity, ShiftRecord, SupersededTest, SwitchingCount, TestRecord, TestStatus,
+    UnknownLabel, VariablesDecision,
+};
 pub use rig::{validate_rigs, Availability, ReferenceSpring, Rig, RigFieldError, RigList, ShiftClock};
 pub use spec::{CharacteristicClass, Finding, Limits, PartSpec, Tolerance, Verdict};
 pub use units::{AngleUnit, TorqueUnit, UnknownUnit};

@@ -1,22 +1,23 @@
 //! Evaluating exports: read each file, compute its curve metrics, judge it against its spec.
 //!
-//! Each file's frame is dropped as soon as its metrics are computed, so memory
-//! holds one result row per test (DESIGN.md §8).
+//! Each file's frame is dropped on the worker thread as soon as its metrics are
+//! computed; the caller receives one [`TestRecord`] (and, when asked, a thinned copy of
+//! the curve for charts) per file, in file order, so memory holds one result row per
+//! test (DESIGN.md §8).
 
-use crate::plant::SpecLibrary;
-use serde::Serialize;
+use crate::plant::{SpecEntry, SpecLibrary};
 use std::path::PathBuf;
-use twistlot_ingest::{ingest_each, FormatSet, IngestError};
-use twistlot_model::{CharacteristicClass, Finding, Verdict};
-use twistlot_stats::{curve_metrics, judge_with, CheckSet, CurveMetrics, MetricOptions};
+use twistlot_ingest::{ingest_ordered, FileOutcome, FormatSet, IngestError, RejectKind};
+use twistlot_model::{CharacteristicClass, CurveData, Finding, TestRecord, TestStatus, Verdict};
+use twistlot_stats::{curve_metrics, judge_with, CheckSet, MetricOptions};
 
 /// Where specs come from.
-#[derive(Debug, Clone)]
-pub enum SpecSource {
+#[derive(Debug, Clone, Copy)]
+pub enum SpecSource<'a> {
     /// One spec for every file (`--spec FILE`).
-    Fixed(SpecLibrary),
+    Fixed(&'a SpecEntry),
     /// By the part number in each export's metadata (the plant's parts folder).
-    ByPart(SpecLibrary),
+    ByPart(&'a SpecLibrary),
     /// No spec: metrics only.
     None,
 }
@@ -42,7 +43,8 @@ pub struct CurvePreview {
 }
 
 impl CurvePreview {
-    fn thinned(curve: &twistlot_model::CurveData, max_points: usize) -> CurvePreview {
+    /// Every k-th point, so that at most `max_points` remain.
+    pub fn thinned(curve: &CurveData, max_points: usize) -> CurvePreview {
         let step = curve.len().div_ceil(max_points.max(1)).max(1);
         CurvePreview {
             angle_deg: curve.angle_deg.iter().step_by(step).copied().collect(),
@@ -51,154 +53,124 @@ impl CurvePreview {
     }
 }
 
-/// One test's result.
-#[derive(Debug, Clone, Serialize)]
-pub struct TestResult {
-    /// Test identifier.
-    pub test_id: String,
-    /// Source file.
-    pub file: String,
-    /// Serial.
-    pub serial: Option<String>,
-    /// Part number.
-    pub part: Option<String>,
-    /// Lot.
-    pub lot: Option<String>,
-    /// Rig.
-    pub rig: Option<String>,
-    /// Operator.
-    pub operator: Option<String>,
-    /// Rig format that read the file.
-    pub rig_format: String,
-    /// Spec file used, when there was one.
-    pub spec_file: Option<String>,
-    /// Drawing revision of that spec.
-    pub spec_revision: Option<String>,
-    /// The curve metrics.
-    #[serde(flatten)]
-    pub metrics: CurveMetrics,
-    /// Verdict, absent when there was no spec to judge against.
-    pub verdict: Option<Verdict>,
-    /// Findings per characteristic.
-    pub findings: Vec<Finding>,
-    /// Thinned curve for charts, when asked for.
-    #[serde(skip)]
-    pub preview: Option<CurvePreview>,
-}
-
 /// What became of one input file.
 #[derive(Debug)]
 pub enum Evaluated {
     /// Read and evaluated.
-    Test(Box<TestResult>),
+    Test {
+        /// The result.
+        record: Box<TestRecord>,
+        /// The thinned curve, when asked for.
+        preview: Option<CurvePreview>,
+    },
     /// Not read, or its curve could not be evaluated.
     Rejected(IngestError),
 }
 
-/// Evaluates every file; `progress` is called once per file as it finishes.
-pub fn evaluate_files(
+/// Evaluates every file and hands each result to `consume`, in file order.
+pub fn evaluate_each(
     files: &[PathBuf],
     formats: &FormatSet,
-    specs: &SpecSource,
+    specs: SpecSource<'_>,
     checks: &CheckSet,
     options: &EvaluateOptions,
-    progress: &(dyn Fn() + Sync),
-) -> Vec<Evaluated> {
-    ingest_each(files, formats, options.rig_format.as_deref(), |outcome| {
-        let result = evaluate_one(outcome, specs, checks, options);
-        progress();
-        result
-    })
+    consume: impl FnMut(Evaluated),
+) {
+    ingest_ordered(
+        files,
+        formats,
+        options.rig_format.as_deref(),
+        |outcome| evaluate_one(outcome, specs, checks, options),
+        consume,
+    );
 }
 
 fn evaluate_one(
-    outcome: twistlot_ingest::FileOutcome,
-    specs: &SpecSource,
+    outcome: FileOutcome,
+    specs: SpecSource<'_>,
     checks: &CheckSet,
     options: &EvaluateOptions,
 ) -> Evaluated {
-    {
-        let export = match outcome.result {
-            Ok(export) => export,
-            Err(err) => return Evaluated::Rejected(err),
-        };
-        let file = outcome.path.display().to_string();
-        let curve = match export.curve() {
-            Ok(curve) => curve,
-            Err(err) => {
-                return Evaluated::Rejected(IngestError::file(
-                    twistlot_ingest::RejectKind::NoData,
-                    &file,
-                    format!("the curve frame is not canonical: {err}"),
-                ))
-            }
-        };
-        let meta = &export.metadata;
-        let spec_entry = match specs {
-            SpecSource::Fixed(library) => library.only(),
-            SpecSource::ByPart(library) => meta.part.as_deref().and_then(|p| library.get(p)),
-            SpecSource::None => None,
-        };
-        let mut metric_options = match spec_entry {
-            Some(entry) => MetricOptions::from_spec(&entry.spec)
-                .with_check_angles(checks.checks(), Some(&entry.spec.part)),
-            None => MetricOptions::default(),
-        };
-        if let Some(window) = options.window {
-            metric_options.window = window;
+    let export = match outcome.result {
+        Ok(export) => export,
+        Err(err) => return Evaluated::Rejected(err),
+    };
+    let file = outcome.path.display().to_string();
+    let curve = match export.curve() {
+        Ok(curve) => curve,
+        Err(err) => {
+            return Evaluated::Rejected(IngestError::file(
+                RejectKind::NoData,
+                &file,
+                format!("the curve frame is not canonical: {err}"),
+            ))
         }
-        let metrics = match curve_metrics(&curve, &metric_options) {
-            Ok(metrics) => metrics,
-            Err(err) => {
-                return Evaluated::Rejected(
-                    IngestError::file(
-                        twistlot_ingest::RejectKind::NoData,
-                        &file,
-                        format!("cannot evaluate the curve: {err}"),
-                    )
-                    .with_format(&export.rig_format),
-                )
-            }
-        };
-        let (verdict, findings) = match (spec_entry, specs) {
-            (Some(entry), _) => {
-                let judgement = judge_with(&metrics, &entry.spec, checks);
-                (Some(judgement.verdict), judgement.findings)
-            }
-            // A plant that has specs but none for this part: say so instead of passing it.
-            (None, SpecSource::ByPart(_)) => (
-                Some(Verdict::Invalid),
-                vec![Finding {
-                    characteristic: "spec".into(),
-                    class: CharacteristicClass::Critical,
-                    value: None,
-                    lower: None,
-                    upper: None,
-                    verdict: Verdict::Invalid,
-                    message: match &meta.part {
-                        Some(part) => format!("no spec for part `{part}` in the plant's parts folder"),
-                        None => "the export names no part number, so no spec applies".into(),
-                    },
-                }],
-            ),
-            (None, _) => (None, Vec::new()),
-        };
-        Evaluated::Test(Box::new(TestResult {
-            test_id: meta.test_id(),
-            file,
-            serial: meta.serial.clone(),
-            part: meta.part.clone(),
-            lot: meta.lot.clone(),
-            rig: meta.rig.clone(),
-            operator: meta.operator.clone(),
-            rig_format: export.rig_format.clone(),
-            spec_file: spec_entry.map(|e| e.path.display().to_string()),
-            spec_revision: spec_entry.map(|e| e.spec.revision.clone()),
-            metrics,
-            verdict,
-            findings,
-            preview: (options.preview_points > 0)
-                .then(|| CurvePreview::thinned(&curve, options.preview_points)),
-        }))
+    };
+    let meta = &export.metadata;
+    let spec_entry = match specs {
+        SpecSource::Fixed(entry) => Some(entry),
+        SpecSource::ByPart(library) => meta.part.as_deref().and_then(|p| library.get(p)),
+        SpecSource::None => None,
+    };
+    let mut metric_options = match spec_entry {
+        Some(entry) => {
+            MetricOptions::from_spec(&entry.spec).with_check_angles(checks.checks(), Some(&entry.spec.part))
+        }
+        None => MetricOptions::default(),
+    };
+    if let Some(window) = options.window {
+        metric_options.window = window;
     }
+    let metrics = match curve_metrics(&curve, &metric_options) {
+        Ok(metrics) => metrics,
+        Err(err) => {
+            return Evaluated::Rejected(
+                IngestError::file(RejectKind::NoData, &file, format!("cannot evaluate the curve: {err}"))
+                    .with_format(&export.rig_format),
+            )
+        }
+    };
+    let (verdict, findings) = match (spec_entry, specs) {
+        (Some(entry), _) => {
+            let judgement = judge_with(&metrics, &entry.spec, checks);
+            (Some(judgement.verdict), judgement.findings)
+        }
+        // A plant that has specs but none for this part: say so instead of passing it.
+        (None, SpecSource::ByPart(_)) => (
+            Some(Verdict::Invalid),
+            vec![Finding {
+                characteristic: "spec".into(),
+                class: CharacteristicClass::Critical,
+                value: None,
+                lower: None,
+                upper: None,
+                verdict: Verdict::Invalid,
+                message: match &meta.part {
+                    Some(part) => format!("no spec for part `{part}` in the plant's parts folder"),
+                    None => "the export names no part number, so no spec applies".into(),
+                },
+            }],
+        ),
+        (None, _) => (None, Vec::new()),
+    };
+    let preview = (options.preview_points > 0).then(|| CurvePreview::thinned(&curve, options.preview_points));
+    let record = TestRecord {
+        test_id: meta.test_id(),
+        file,
+        content_hash: meta.content_hash.clone(),
+        serial: meta.serial.clone(),
+        part: meta.part.clone(),
+        lot: meta.lot.clone(),
+        rig: meta.rig.clone(),
+        operator: meta.operator.clone(),
+        started: meta.started.clone(),
+        rig_format: export.rig_format.clone(),
+        spec_file: spec_entry.map(|e| e.path.display().to_string()),
+        spec_revision: spec_entry.map(|e| e.spec.revision.clone()),
+        metrics,
+        verdict,
+        findings,
+        status: TestStatus::Counted,
+    };
+    Evaluated::Test { record: Box::new(record), preview }
 }

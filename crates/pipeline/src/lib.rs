@@ -1,26 +1,32 @@
 //! Runs twistlot's jobs end to end; the only crate that knows all the others.
 //!
-//! For: finding and validating plugins ([`plugins`]), loading the plant config
-//! and its part specs ([`plant`]), evaluating exports against their specs
-//! ([`evaluate`]: ingest pushes each export into the evaluator, which keeps one
-//! result row per test and drops the curve), running a shift ([`shift`]), and
-//! keeping each part's switching record between shifts ([`switching`]).
+//! For: opening a plant for any command ([`open`]: config, plugins built in and found,
+//! rig formats, checks, specs, sampling schemes, templates, history folder), evaluating
+//! exports against their specs ([`evaluate`]: each export streams through the evaluator
+//! and leaves one [`twistlot_model::TestRecord`]), running a shift ([`shift`]) that
+//! pushes every test and decided lot into sinks ([`sink`], [`outputs`]), and keeping each
+//! part's switching record between shifts ([`switching`]).
 //!
 //! Not for: computations (layer-1 crates), rendering (report) or printing (cli).
 //!
-//! Main types: [`PluginCatalog`], [`Plant`], [`SpecLibrary`], [`TestResult`],
-//! [`ShiftSummaryJson`], [`SwitchingRecord`].
+//! Main types: [`OpenPlant`], [`OpenOptions`], [`PluginCatalog`], [`Plant`],
+//! [`SpecLibrary`], [`ShiftSink`], [`SinkSet`], [`SwitchingRecord`].
 
 pub mod evaluate;
+pub mod open;
+pub mod outputs;
 pub mod plant;
 pub mod plugins;
 pub mod shift;
+pub mod sink;
 pub mod switching;
 
-pub use evaluate::{evaluate_files, EvaluateOptions, Evaluated, SpecSource, TestResult};
-pub use plant::{Plant, PlantError, SpecLibrary};
-pub use plugins::{check_manifests, shipped_plugins_dir, PluginCatalog, PluginEntry};
-pub use shift::{run_shift, ShiftError, ShiftOutcome, ShiftSummaryJson};
+pub use evaluate::{evaluate_each, CurvePreview, EvaluateOptions, Evaluated, SpecSource};
+pub use open::{find_plant_file, OpenError, OpenOptions, OpenPlant};
+pub use plant::{Plant, PlantError, SpecEntry, SpecLibrary};
+pub use plugins::{PluginCatalog, PluginEntry, PluginError, PluginSource, Schemes};
+pub use shift::{run_shift, ShiftError};
+pub use sink::{FailurePolicy, LotEvent, ShiftSink, ShiftStart, SinkError, SinkSet};
 pub use switching::{
     plant_standings, resume_part, StandingRow, SwitchingError, SwitchingRecord, SwitchingRecordError,
 };

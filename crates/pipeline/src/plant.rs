@@ -23,6 +23,10 @@ struct PlantFile {
     #[serde(default)]
     sinks: Vec<String>,
     #[serde(default)]
+    checks: Vec<String>,
+    #[serde(default)]
+    beyond_sample: twistlot_sampling::BeyondSample,
+    #[serde(default)]
     switching: SwitchingConfig,
 }
 
@@ -80,6 +84,10 @@ pub struct Plant {
     pub rigs: Vec<RigEntry>,
     /// Sink plugins every decided lot is sent to, by name.
     pub sinks: Vec<String>,
+    /// Check plugins that apply to this plant's parts, by name.
+    pub checks: Vec<String>,
+    /// What the sampling plans do with tests beyond their sample size.
+    pub beyond_sample: twistlot_sampling::BeyondSample,
     /// Conditions for reduced inspection.
     pub switching: SwitchingConfig,
 }
@@ -88,11 +96,12 @@ pub struct Plant {
 #[derive(Debug, thiserror::Error)]
 pub enum PlantError {
     /// A file could not be read.
-    #[error("{path}: cannot read: {source}")]
+    #[error("{path}: cannot read")]
     Read {
         /// The file.
         path: String,
         /// The cause.
+        #[source]
         source: std::io::Error,
     },
     /// A document did not parse or validate.
@@ -116,13 +125,6 @@ fn read(path: &Path) -> Result<String, PlantError> {
 }
 
 impl Plant {
-    /// The folders plugins are read from: the shipped `plugins/` first, then the plant's own.
-    pub fn plugin_folders(&self) -> Vec<PathBuf> {
-        let mut folders = vec![crate::plugins::shipped_plugins_dir()];
-        folders.extend(self.plugin_dirs.iter().cloned());
-        folders
-    }
-
     /// Loads and resolves a plant config.
     pub fn load(path: &Path) -> Result<Plant, PlantError> {
         let text = read(path)?;
@@ -149,6 +151,8 @@ impl Plant {
             history_dir: file.history.as_deref().map(resolve),
             rigs: file.rigs,
             sinks: file.sinks,
+            checks: file.checks,
+            beyond_sample: file.beyond_sample,
             switching: file.switching,
         })
     }

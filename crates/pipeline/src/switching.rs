@@ -6,12 +6,16 @@
 //! from the entries, so the file stays readable and a re-run of a shift replaces that
 //! shift's own entries instead of counting its lots twice.
 
-use crate::plant::{Plant, SpecLibrary};
-use crate::plugins::PluginCatalog;
+use crate::open::OpenPlant;
+use crate::plugins::Schemes;
+use crate::sink::{LotEvent, ShiftSink, SinkError};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
-use twistlot_sampling::{Conditions, LotOutcome, Severity, SwitchingRules, SwitchingState, Transition};
+use twistlot_model::{Disposition, GroundTopic, InspectionState, LotDecision, ShiftRecord};
+use twistlot_sampling::{
+    Conditions, LotOutcome, LotStanding, Severity, SwitchingRules, SwitchingState, Transition,
+};
 
 /// The record's file name inside the history folder.
 pub const SWITCHING_FILE: &str = "switching.jsonl";
@@ -61,6 +65,29 @@ pub struct SwitchingEntry {
     /// Who recorded a resumption and why.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
+}
+
+impl SwitchingEntry {
+    /// The entry a decided lot adds to its part's record.
+    pub fn for_decision(part: &str, lot: &str, shift: &str, decision: &LotDecision) -> SwitchingEntry {
+        let count = decision.switching.as_ref();
+        SwitchingEntry {
+            part: part.to_string(),
+            shift: shift.to_string(),
+            lot: Some(lot.to_string()),
+            kind: match decision.disposition {
+                Disposition::Accept => EntryKind::Accept,
+                Disposition::Reject => EntryKind::Reject,
+                Disposition::Hold => EntryKind::Hold,
+            },
+            severity: count.map(|c| c.severity),
+            sample_size: count.map_or(0, |c| c.sample_size),
+            defectives: count.map_or(0, |c| c.defectives),
+            aql_pct: count.map_or(0.0, |c| c.aql_pct),
+            between_ac_and_re: count.is_some_and(|c| c.between_ac_and_re),
+            note: None,
+        }
+    }
 }
 
 /// Why the switching record cannot be used.
@@ -219,6 +246,16 @@ fn replay(
 }
 
 impl PartStanding {
+    /// Where the part stands, in the form the lot decision takes.
+    pub fn lot_standing(&self, explanation: String) -> LotStanding {
+        LotStanding { severity: self.state.severity, discontinued: self.state.discontinued, explanation }
+    }
+
+    /// The part's state for its next lot.
+    pub fn inspection_state(&self) -> InspectionState {
+        InspectionState::of(self.state.severity, self.state.discontinued)
+    }
+
     /// A part with no record: normal inspection, nothing counted.
     pub fn fresh() -> Self {
         PartStanding { state: SwitchingState::new(), last_transition: None }
@@ -288,8 +325,8 @@ pub fn describe_standing(standing: &PartStanding, rules: &SwitchingRules) -> Str
 pub struct StandingRow {
     /// Part number.
     pub part: String,
-    /// `normal`, `tightened`, `reduced`, or `discontinued`.
-    pub severity: String,
+    /// Where the part stands for its next lot.
+    pub severity: InspectionState,
     /// Lots inspected since the current severity began.
     pub lots_on_severity: u32,
     /// Lots not accepted since the current severity began.
@@ -308,9 +345,6 @@ pub enum SwitchingError {
     /// The plant names no history folder.
     #[error("{0}: the plant config names no `history` folder, so no switching record is kept")]
     NoHistory(String),
-    /// The plant config or a spec did not load.
-    #[error(transparent)]
-    Plant(#[from] crate::plant::PlantError),
     /// The record is broken.
     #[error(transparent)]
     Record(#[from] SwitchingRecordError),
@@ -321,20 +355,20 @@ pub enum SwitchingError {
 
 /// The plant's record and the switching rules of each part whose spec names a loaded scheme.
 fn open_plant_record(
-    plant: &Plant,
+    plant: &OpenPlant,
 ) -> Result<(SwitchingRecord, BTreeMap<String, SwitchingRules>), SwitchingError> {
-    let history = plant
-        .history_dir
-        .as_deref()
-        .ok_or_else(|| SwitchingError::NoHistory(plant.path.display().to_string()))?;
+    let history = plant.history_dir.as_deref().ok_or_else(|| {
+        SwitchingError::NoHistory(
+            plant.config.as_ref().map_or("no plant config".to_string(), |c| c.path.display().to_string()),
+        )
+    })?;
     let record = SwitchingRecord::load(history)?;
-    let schemes = PluginCatalog::discover(&plant.plugin_folders()).sampling_schemes();
-    let specs = SpecLibrary::load_dir(&plant.parts_dir)?;
-    let rules = specs
+    let rules = plant
+        .specs
         .parts()
         .filter_map(|part| {
-            let spec = &specs.get(part)?.spec;
-            part_rules(spec, &schemes).map(|rules| (part.to_string(), rules.clone()))
+            let spec = &plant.specs.get(part)?.spec;
+            part_rules(spec, &plant.schemes).map(|rules| (part.to_string(), rules.clone()))
         })
         .collect();
     Ok((record, rules))
@@ -343,13 +377,10 @@ fn open_plant_record(
 /// The switching rules of the scheme the part's spec names, when that scheme loaded.
 pub(crate) fn part_rules<'a>(
     spec: &twistlot_model::PartSpec,
-    schemes: &'a BTreeMap<String, Result<twistlot_sampling::Scheme, String>>,
+    schemes: &'a Schemes,
 ) -> Option<&'a SwitchingRules> {
     let sampling = spec.sampling.as_ref()?;
-    match schemes.get(&sampling.scheme) {
-        Some(Ok(scheme)) => Some(&scheme.switching),
-        _ => None,
-    }
+    schemes.get(&sampling.scheme).map(|scheme| &scheme.switching)
 }
 
 fn standing_row(
@@ -361,11 +392,7 @@ fn standing_row(
     let standing = record.standing_now(part, rules, conditions);
     StandingRow {
         part: part.to_string(),
-        severity: if standing.state.discontinued {
-            "discontinued".to_string()
-        } else {
-            standing.state.severity.as_str().to_string()
-        },
+        severity: standing.inspection_state(),
         lots_on_severity: standing.state.lots_on_severity,
         rejected_on_severity: standing.state.rejected_on_severity,
         last_switch: standing
@@ -403,18 +430,26 @@ pub fn transition_consequence(transition: Transition) -> &'static str {
 }
 
 /// Every part of the plant (with a spec naming a loaded scheme) and where it stands now.
-pub fn plant_standings(plant: &Plant) -> Result<Vec<StandingRow>, SwitchingError> {
+pub fn plant_standings(plant: &OpenPlant) -> Result<Vec<StandingRow>, SwitchingError> {
     let (record, rules) = open_plant_record(plant)?;
     Ok(rules
         .iter()
-        .map(|(part, rules)| standing_row(part, &record, rules, &plant.switching.conditions(part)))
+        .map(|(part, rules)| standing_row(part, &record, rules, &conditions(plant, part)))
         .collect())
+}
+
+/// The switching conditions the plant config states for a part (none: steady, not approved).
+pub fn conditions(plant: &OpenPlant, part: &str) -> Conditions {
+    match &plant.config {
+        Some(config) => config.switching.conditions(part),
+        None => Conditions { production_steady: true, reduced_approved: false },
+    }
 }
 
 /// Records the supplier's corrective action for a discontinued part: its next lot is
 /// inspected on tightened. Refused for a part that is not discontinued.
 pub fn resume_part(
-    plant: &Plant,
+    plant: &OpenPlant,
     part: &str,
     note: &str,
     label: &str,
@@ -422,8 +457,7 @@ pub fn resume_part(
     let (mut record, rules) = open_plant_record(plant)?;
     let Some(part_rules) = rules.get(part) else {
         return Err(SwitchingError::Refused(format!(
-            "part `{part}` has no spec in {} naming a sampling scheme that loads",
-            plant.parts_dir.display()
+            "part `{part}` has no spec in the plant's parts folder naming a sampling scheme that loads"
         )));
     };
     if note.trim().is_empty() {
@@ -431,7 +465,7 @@ pub fn resume_part(
             "say who approved the corrective action and what it was (--note)".to_string(),
         ));
     }
-    let conditions = plant.switching.conditions(part);
+    let conditions = conditions(plant, part);
     if !record.standing_now(part, part_rules, &conditions).state.discontinued {
         return Err(SwitchingError::Refused(format!(
             "part `{part}` is not discontinued; resuming is only for a part whose acceptance was stopped"
@@ -451,6 +485,41 @@ pub fn resume_part(
     });
     record.save()?;
     Ok(standing_row(part, &record, part_rules, &conditions))
+}
+
+/// The switching record as a shift sink: each decided lot becomes an entry; when the
+/// shift ends the shift's entries replace its earlier ones and the record is saved. It
+/// is the last sink fed, so the record only ever holds lots whose reports exist.
+pub struct SwitchingRecordWriter {
+    record: SwitchingRecord,
+    shift: String,
+    entries: Vec<SwitchingEntry>,
+}
+
+impl SwitchingRecordWriter {
+    /// A writer adding `shift`'s lots to `record`.
+    pub fn new(record: SwitchingRecord, shift: &str) -> SwitchingRecordWriter {
+        SwitchingRecordWriter { record, shift: shift.to_string(), entries: Vec::new() }
+    }
+}
+
+impl ShiftSink for SwitchingRecordWriter {
+    fn name(&self) -> String {
+        format!("switching record {}", self.record.path().display())
+    }
+
+    fn lot(&mut self, event: &LotEvent<'_>) -> Result<(), SinkError> {
+        let record = event.record;
+        let held = LotDecision::hold(GroundTopic::Evidence, "no decision was recorded", None);
+        let decision = record.decision.as_ref().unwrap_or(&held);
+        self.entries.push(SwitchingEntry::for_decision(&record.part, &record.lot, &self.shift, decision));
+        Ok(())
+    }
+
+    fn end(&mut self, _shift: &ShiftRecord) -> Result<(), SinkError> {
+        self.record.replace_shift(&self.shift, std::mem::take(&mut self.entries));
+        self.record.save().map_err(SinkError::Switching)
+    }
 }
 
 #[cfg(test)]

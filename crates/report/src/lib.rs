@@ -3,12 +3,12 @@
 //!
 //! For: drawing the report charts as inline SVG ([`charts`]), holding the plain-data
 //! contexts the pipeline fills ([`context`]), and rendering them through minijinja
-//! templates that a plant may override file by file ([`render`]).
+//! templates compiled into the binary that a plant may override file by file ([`render`]).
 //!
 //! Not for: computing anything statistical, judging parts or lots, or reading rig
 //! files. Every number shown arrives ready-made in a context struct; this crate only
-//! formats it. It depends on nothing but `twistlot-model`, so the layers that compute
-//! results never have to know how they are shown.
+//! formats it. It depends on nothing but `twistlot-model`, whose records the contexts
+//! embed, so the layers that compute results never have to know how they are shown.
 //!
 //! Main types: [`Renderer`], [`LotReport`], [`ShiftSummary`], [`TestsCsv`],
 //! [`SvgMarkup`], [`ReportError`]; chart functions [`rate_histogram_svg`],
@@ -19,11 +19,8 @@ pub mod context;
 pub mod render;
 
 pub use charts::{curves_svg, oc_curve_svg, rate_histogram_svg, CurveLine, SvgMarkup, ToleranceWindow};
-pub use context::{
-    default_cautions, CharacteristicStats, Charts, Disposition, FlaggedPart, LotLine, LotReport, PlanView,
-    RejectedFile, ShiftSummary, TestRow, TestsCsv,
-};
-pub use render::{csv_field, shipped_templates_dir, Renderer};
+pub use context::{default_cautions, Charts, LotReport, ShiftSummary, TestsCsv};
+pub use render::{csv_field, Renderer, TemplateSource};
 
 use std::path::PathBuf;
 

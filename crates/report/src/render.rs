@@ -1,10 +1,11 @@
 //! The minijinja environment that turns contexts into documents.
 //!
-//! Templates are found by file name, first in the plant's override folder and then in
-//! the shipped `templates/` folder, so a plant replaces one document (or one partial,
-//! such as the style sheet) without copying the rest. HTML templates escape every
-//! value, because serials, operators and free text come straight from rig exports;
-//! the only markup let through is chart SVG this crate drew itself ([`SvgMarkup`]).
+//! The shipped templates are compiled into the binary ([`BUILT_IN`]), so a copied or
+//! installed `twistlot` writes its reports from any folder. A plant overrides any of
+//! them, one file at a time, by putting a file of the same name in its template folder
+//! (a partial such as the style sheet included). HTML templates escape every value,
+//! because serials, operators and free text come straight from rig exports; the only
+//! markup let through is chart SVG this crate drew itself ([`SvgMarkup`]).
 //!
 //! [`SvgMarkup`]: crate::SvgMarkup
 
@@ -15,24 +16,47 @@ use serde::Serialize;
 use std::fmt::Write as _;
 use std::path::{Component, Path, PathBuf};
 
-/// The `templates/` folder that ships with the source tree.
-pub fn shipped_templates_dir() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join("..").join("templates")
+/// The shipped templates: (file name, text).
+pub const BUILT_IN: &[(&str, &str)] = &[
+    ("_report.css.j2", include_str!("../../../templates/_report.css.j2")),
+    ("lot_report.html.j2", include_str!("../../../templates/lot_report.html.j2")),
+    ("lot_report.md.j2", include_str!("../../../templates/lot_report.md.j2")),
+    ("shift_summary.html.j2", include_str!("../../../templates/shift_summary.html.j2")),
+    ("tests.csv.j2", include_str!("../../../templates/tests.csv.j2")),
+];
+
+/// Where a template came from.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum TemplateSource {
+    /// Compiled into the binary.
+    BuiltIn,
+    /// A file in a template folder.
+    File(PathBuf),
 }
 
-/// Renders report templates from the shipped folder and an optional plant override folder.
+/// Renders report templates: a plant's override folder first, then the base templates.
 #[derive(Debug)]
 pub struct Renderer {
     env: Environment<'static>,
     folders: Vec<PathBuf>,
+    built_in: bool,
 }
 
 impl Renderer {
-    /// Sets up the environment; both folders must exist (templates load on first use).
-    pub fn new(shipped_dir: &Path, override_dir: Option<&Path>) -> Result<Self, ReportError> {
-        // Override first: the first folder holding a file of the asked-for name wins.
+    /// The built-in templates, overridden file by file by `override_dir` (which must exist).
+    pub fn new(override_dir: Option<&Path>) -> Result<Self, ReportError> {
+        Renderer::build(override_dir.into_iter().collect(), true)
+    }
+
+    /// Templates from `base_dir` instead of the built-ins, overridden by `override_dir`.
+    pub fn with_base_folder(base_dir: &Path, override_dir: Option<&Path>) -> Result<Self, ReportError> {
+        Renderer::build(override_dir.into_iter().chain([base_dir]).collect(), false)
+    }
+
+    fn build(dirs: Vec<&Path>, built_in: bool) -> Result<Self, ReportError> {
+        // The first folder holding a file of the asked-for name wins.
         let mut folders = Vec::new();
-        for dir in override_dir.into_iter().chain([shipped_dir]) {
+        for dir in dirs {
             let meta = std::fs::metadata(dir)
                 .map_err(|source| ReportError::TemplateDir { path: dir.to_path_buf(), source })?;
             if !meta.is_dir() {
@@ -46,7 +70,7 @@ impl Renderer {
 
         let mut env = Environment::new();
         let search = folders.clone();
-        env.set_loader(move |name| load_template(&search, name));
+        env.set_loader(move |name| load_template(&search, built_in, name));
         env.set_auto_escape_callback(auto_escape_for);
         // A misspelt field in a plant's template should fail loudly, not print nothing.
         env.set_undefined_behavior(UndefinedBehavior::Strict);
@@ -64,7 +88,8 @@ impl Renderer {
         env.add_filter("fixed", fixed_filter);
         env.add_filter("sig", sig_filter);
         env.add_filter("md_text", md_text_filter);
-        Ok(Renderer { env, folders })
+        env.add_filter("failed_findings", failed_findings_filter);
+        Ok(Renderer { env, folders, built_in })
     }
 
     /// Renders template `name` (e.g. `lot_report.html.j2`) with `ctx`.
@@ -74,8 +99,11 @@ impl Renderer {
             let mut error = template_error(name, &err);
             if err.kind() == ErrorKind::TemplateNotFound {
                 if let ReportError::Template { detail, .. } = &mut error {
-                    let searched: Vec<String> =
+                    let mut searched: Vec<String> =
                         self.folders.iter().map(|f| f.display().to_string()).collect();
+                    if self.built_in {
+                        searched.push("the built-in templates".to_string());
+                    }
                     detail.push_str(&format!(" (looked in {})", searched.join(", ")));
                 }
             }
@@ -83,16 +111,19 @@ impl Renderer {
         })
     }
 
-    /// The file that template `name` is loaded from, if any folder has one.
-    pub fn template_path(&self, name: &str) -> Option<PathBuf> {
+    /// Where template `name` is loaded from, if anywhere.
+    pub fn template_source(&self, name: &str) -> Option<TemplateSource> {
         if !is_plain_name(name) {
             return None;
         }
-        self.folders.iter().map(|f| f.join(name)).find(|p| p.is_file())
+        if let Some(path) = self.folders.iter().map(|f| f.join(name)).find(|p| p.is_file()) {
+            return Some(TemplateSource::File(path));
+        }
+        (self.built_in && BUILT_IN.iter().any(|(n, _)| *n == name)).then_some(TemplateSource::BuiltIn)
     }
 }
 
-fn load_template(folders: &[PathBuf], name: &str) -> Result<Option<String>, Error> {
+fn load_template(folders: &[PathBuf], built_in: bool, name: &str) -> Result<Option<String>, Error> {
     // Names come from templates too (`include`), so they must not climb out of the folders.
     if !is_plain_name(name) {
         return Ok(None);
@@ -111,7 +142,7 @@ fn load_template(folders: &[PathBuf], name: &str) -> Result<Option<String>, Erro
             }
         }
     }
-    Ok(None)
+    Ok(built_in.then(|| BUILT_IN.iter().find(|(n, _)| *n == name).map(|(_, t)| t.to_string())).flatten())
 }
 
 fn is_plain_name(name: &str) -> bool {
@@ -198,6 +229,20 @@ fn sig_filter(value: Value, figures: Option<u32>) -> Result<Value, Error> {
     Ok(Value::from(crate::charts::significant(number, figures.unwrap_or(4).clamp(1, 15))))
 }
 
+/// `{{ test.findings | failed_findings }}`: the findings that did not pass, as
+/// "characteristic: message" joined by "; " (empty when every finding passed).
+fn failed_findings_filter(findings: Value) -> Result<String, Error> {
+    let mut parts = Vec::new();
+    for finding in findings.try_iter()? {
+        let verdict = finding.get_attr("verdict")?;
+        if verdict.as_str() == Some("pass") {
+            continue;
+        }
+        parts.push(format!("{}: {}", finding.get_attr("characteristic")?, finding.get_attr("message")?));
+    }
+    Ok(parts.join("; "))
+}
+
 /// Escapes text for Markdown so export text cannot add markup or break a table.
 fn md_text_filter(value: Value) -> Value {
     if value.is_none() || value.is_undefined() {
@@ -220,6 +265,13 @@ fn md_text_filter(value: Value) -> Value {
 
 #[cfg(test)]
 mod tests {
+    /// This crate's folder as cargo names it when running the test (not as compiled in),
+    /// so a test binary from a shared build cache reads this checkout's files.
+    fn crate_dir() -> std::path::PathBuf {
+        std::env::var_os("CARGO_MANIFEST_DIR")
+            .map_or_else(|| std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")), std::path::PathBuf::from)
+    }
+
     use super::*;
     use proptest::prelude::*;
     use std::fs;
@@ -269,7 +321,7 @@ mod tests {
             ("a.csv.j2", "{{ text | csv_field }},{{ number }},{{ number | csv_field }}"),
             ("a.json.j2", "{{ text }}"),
         ]);
-        let r = Renderer::new(dir.path(), None).unwrap();
+        let r = Renderer::with_base_folder(dir.path(), None).unwrap();
         let ctx = Ctx { text: "<b>x|y</b>, \"q\"", number: None };
         assert_eq!(r.render("a.html.j2", &ctx).unwrap(), "&lt;b&gt;x|y&lt;&#x2f;b&gt;, &quot;q&quot;|—");
         assert_eq!(r.render("a.md.j2", &ctx).unwrap(), "<b>x|y</b>, \"q\"|—|\\<b\\>x\\|y\\</b\\>, \"q\"");
@@ -281,15 +333,16 @@ mod tests {
     fn number_filters_format_and_pass_none_through() {
         let dir =
             folder(&[("n.html.j2", "{{ number | fixed(2) }} {{ number | sig(3) }} {{ number | fixed }}")]);
-        let r = Renderer::new(dir.path(), None).unwrap();
+        let r = Renderer::with_base_folder(dir.path(), None).unwrap();
         assert_eq!(
             r.render("n.html.j2", &Ctx { text: "", number: Some(1.23456) }).unwrap(),
             "1.23 1.23 1.235"
         );
         assert_eq!(r.render("n.html.j2", &Ctx { text: "", number: None }).unwrap(), "— — —");
         let bad = folder(&[("b.html.j2", "{{ text | fixed(2) }}")]);
-        let err =
-            Renderer::new(bad.path(), None).unwrap().render("b.html.j2", &Ctx { text: "x", number: None });
+        let err = Renderer::with_base_folder(bad.path(), None)
+            .unwrap()
+            .render("b.html.j2", &Ctx { text: "x", number: None });
         assert!(err.unwrap_err().to_string().contains("not a number"));
     }
 
@@ -298,19 +351,22 @@ mod tests {
         let shipped =
             folder(&[("r.html.j2", "shipped {% include \"part.j2\" %}"), ("part.j2", "shipped part")]);
         let plant = folder(&[("part.j2", "plant part")]);
-        let r = Renderer::new(shipped.path(), Some(plant.path())).unwrap();
+        let r = Renderer::with_base_folder(shipped.path(), Some(plant.path())).unwrap();
         let ctx = Ctx { text: "", number: None };
         assert_eq!(r.render("r.html.j2", &ctx).unwrap(), "shipped plant part");
-        assert_eq!(r.template_path("part.j2"), Some(plant.path().join("part.j2")));
-        assert_eq!(r.template_path("r.html.j2"), Some(shipped.path().join("r.html.j2")));
-        let plain = Renderer::new(shipped.path(), None).unwrap();
+        assert_eq!(r.template_source("part.j2"), Some(TemplateSource::File(plant.path().join("part.j2"))));
+        assert_eq!(
+            r.template_source("r.html.j2"),
+            Some(TemplateSource::File(shipped.path().join("r.html.j2")))
+        );
+        let plain = Renderer::with_base_folder(shipped.path(), None).unwrap();
         assert_eq!(plain.render("r.html.j2", &ctx).unwrap(), "shipped shipped part");
     }
 
     #[test]
     fn syntax_error_names_template_and_line() {
         let dir = folder(&[("broken.html.j2", "line one\nline two\n{% if text %}\nno end\n{{ text }\n")]);
-        let err = Renderer::new(dir.path(), None)
+        let err = Renderer::with_base_folder(dir.path(), None)
             .unwrap()
             .render("broken.html.j2", &Ctx { text: "", number: None });
         let err = err.unwrap_err();
@@ -325,8 +381,9 @@ mod tests {
     fn error_in_included_template_names_that_template() {
         let dir =
             folder(&[("outer.html.j2", "a\n{% include \"inner.j2\" %}"), ("inner.j2", "ok\n{{ missing }}")]);
-        let err =
-            Renderer::new(dir.path(), None).unwrap().render("outer.html.j2", &Ctx { text: "", number: None });
+        let err = Renderer::with_base_folder(dir.path(), None)
+            .unwrap()
+            .render("outer.html.j2", &Ctx { text: "", number: None });
         let message = err.unwrap_err().to_string();
         assert!(message.contains("inner.j2"), "{message}");
         assert!(message.contains("undefined"), "{message}");
@@ -335,8 +392,9 @@ mod tests {
     #[test]
     fn unknown_field_fails_loudly() {
         let dir = folder(&[("t.html.j2", "{{ txet }}")]);
-        let err =
-            Renderer::new(dir.path(), None).unwrap().render("t.html.j2", &Ctx { text: "", number: None });
+        let err = Renderer::with_base_folder(dir.path(), None)
+            .unwrap()
+            .render("t.html.j2", &Ctx { text: "", number: None });
         let ReportError::Template { name, line, detail } = err.unwrap_err() else { panic!() };
         assert_eq!((name.as_str(), line), ("t.html.j2", Some(1)));
         assert!(detail.contains("undefined"), "{detail}");
@@ -345,8 +403,9 @@ mod tests {
     #[test]
     fn missing_template_says_where_it_looked() {
         let dir = folder(&[]);
-        let err =
-            Renderer::new(dir.path(), None).unwrap().render("nope.html.j2", &Ctx { text: "", number: None });
+        let err = Renderer::with_base_folder(dir.path(), None)
+            .unwrap()
+            .render("nope.html.j2", &Ctx { text: "", number: None });
         let message = err.unwrap_err().to_string();
         assert!(
             message.contains("nope.html.j2") && message.contains(&dir.path().display().to_string()),
@@ -361,17 +420,47 @@ mod tests {
         let inner = outer.path().join("templates");
         fs::create_dir(&inner).unwrap();
         fs::write(inner.join("t.html.j2"), "{% include \"../secret.j2\" %}").unwrap();
-        let err = Renderer::new(&inner, None).unwrap().render("t.html.j2", &Ctx { text: "", number: None });
+        let err = Renderer::with_base_folder(&inner, None)
+            .unwrap()
+            .render("t.html.j2", &Ctx { text: "", number: None });
         assert!(err.is_err());
         assert!(!is_plain_name("/etc/passwd") && !is_plain_name("a\\b") && is_plain_name("parts/x.j2"));
+    }
+
+    #[test]
+    fn built_in_templates_need_no_folder_and_yield_to_an_override() {
+        let r = Renderer::new(None).unwrap();
+        assert_eq!(r.template_source("tests.csv.j2"), Some(TemplateSource::BuiltIn));
+        let plant = folder(&[("tests.csv.j2", "plant {{ text }}")]);
+        let r = Renderer::new(Some(plant.path())).unwrap();
+        assert_eq!(r.render("tests.csv.j2", &Ctx { text: "x", number: None }).unwrap(), "plant x");
+        let err = r.render("nope.j2", &Ctx { text: "", number: None }).unwrap_err().to_string();
+        assert!(err.contains("the built-in templates"), "{err}");
+    }
+
+    #[test]
+    fn every_shipped_template_is_compiled_in() {
+        // The source tree is read here only to prove the list above is complete.
+        let shipped = crate_dir().join("../../templates");
+        let mut names: Vec<String> = fs::read_dir(&shipped)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+            .collect();
+        names.sort();
+        let mut built_in: Vec<&str> = BUILT_IN.iter().map(|(n, _)| *n).collect();
+        built_in.sort();
+        assert_eq!(names, built_in);
     }
 
     #[test]
     fn missing_folder_is_an_error() {
         let dir = folder(&[]);
         let gone = dir.path().join("gone");
-        assert!(matches!(Renderer::new(&gone, None), Err(ReportError::TemplateDir { .. })));
-        assert!(matches!(Renderer::new(dir.path(), Some(&gone)), Err(ReportError::TemplateDir { .. })));
+        assert!(matches!(Renderer::with_base_folder(&gone, None), Err(ReportError::TemplateDir { .. })));
+        assert!(matches!(
+            Renderer::with_base_folder(dir.path(), Some(&gone)),
+            Err(ReportError::TemplateDir { .. })
+        ));
     }
 
     #[test]

@@ -1,86 +1,178 @@
 //! Renders every shipped template with a sample context and checks what a reader sees.
 
-use twistlot_model::Verdict;
+use twistlot_model::{
+    AttributePlan, Capability, CapabilityMethod, CharacteristicClass, CharacteristicStats, ClassDecision,
+    CurveMetrics, Disposition, DuplicateFile, Finding, Ground, GroundTopic, LotDecision, LotRecord, PartSpec,
+    PlanSummary, RejectedFile, Severity, ShiftRecord, SupersededTest, TestRecord, TestStatus, Verdict,
+};
 use twistlot_report::*;
 
 const EVIL: &str = "<script>alert(1)</script>";
 
 fn renderer() -> Renderer {
-    Renderer::new(&shipped_templates_dir(), None).unwrap()
+    Renderer::new(None).unwrap()
+}
+
+fn spec() -> PartSpec {
+    let text = "part: TS-4410\nrevision: C\ncustomer: Ketterby & Sons <invented>\n\
+                material: { name: wire, modulus_n_per_mm2: 206000 }\n\
+                geometry: { wire_diameter_mm: 1.0, mean_diameter_mm: 8.0, body_coils: 5, leg_lengths_mm: [10, 10], wind: left }\n\
+                test: { max_angle_deg: 90 }\n\
+                characteristics:\n  rate_nmm_per_deg: { nominal: 12.0, tolerance: \"±0.8\", class: major }\n\
+                sampling:\n  level: II\n  major: { plan: attribute, aql_pct: 1.0 }\n  minor: { plan: none }\n";
+    PartSpec::from_yaml("specs/TS-4410-C.yaml", text).unwrap()
+}
+
+fn test(serial: &str, file: &str, verdict: Verdict, message: &str) -> TestRecord {
+    TestRecord {
+        test_id: format!("{serial}-0000"),
+        file: file.into(),
+        content_hash: "00".into(),
+        serial: Some(serial.into()),
+        part: Some("TS-4410".into()),
+        lot: Some("L-0517".into()),
+        rig: Some("RIG-A".into()),
+        operator: Some("A. Operator".into()),
+        started: Some("2024-05-14T06:00".into()),
+        rig_format: "native".into(),
+        spec_file: Some("specs/TS-4410-C.yaml".into()),
+        spec_revision: Some("C".into()),
+        metrics: CurveMetrics { rate_nmm_per_deg: Some(12.9), max_torque_nmm: 1000.0, ..Default::default() },
+        verdict: Some(verdict),
+        findings: vec![Finding {
+            characteristic: "rate".into(),
+            class: CharacteristicClass::Major,
+            value: Some(12.9),
+            lower: Some(11.2),
+            upper: Some(12.8),
+            verdict,
+            message: message.into(),
+        }],
+        status: TestStatus::Counted,
+    }
 }
 
 fn lot(disposition: Disposition) -> LotReport {
     let rates = [11.8, 11.9, 12.0, 12.0, 12.1, 12.2, 12.9];
-    LotReport {
-        generated_at: "2024-05-14 06:12".into(),
-        shift: "S-0514-A".into(),
-        part: "TS-4410".into(),
-        revision: "C".into(),
-        customer: None,
-        spec_file: "specs/TS-4410-C.yaml".into(),
-        lot: "L-0517".into(),
-        quantity: 1200,
-        plan: PlanView {
-            scheme: "MIL-STD-105E".into(),
-            code_letter: Some("J".into()),
-            inspection_level: Some("II".into()),
-            aql_pct: Some(1.0),
-            sample_size: 50,
-            accept: Some(1),
-            reject: Some(2),
-            acceptability_k: None,
-            severity: "tightened".into(),
-        },
+    let plan = AttributePlan {
+        code_letter: "J".into(),
+        sample_size: 50,
+        accept: 1,
+        reject: 2,
+        severity: Severity::Tightened,
+        hundred_percent: false,
+    };
+    let decision = LotDecision {
         disposition,
-        grounds: vec!["2 nonconforming in 50; rejects on 2".into()],
+        severity: Some(Severity::Tightened),
+        grounds: vec![Ground::leading(
+            GroundTopic::Class(CharacteristicClass::Major),
+            disposition,
+            "2 nonconforming in 50; rejects on 2",
+        )],
+        deciding: Some(0),
+        classes: vec![ClassDecision {
+            class: CharacteristicClass::Major,
+            plan: plan.clone(),
+            aql_pct: Some(1.0),
+            tested: 50,
+            defectives: 2,
+            defectives_beyond_sample: 0,
+            invalid: 1,
+            outcome: disposition,
+        }],
+        variables: None,
+        shown_class: Some(CharacteristicClass::Major),
+        switching: None,
+    };
+    let statistics = vec![CharacteristicStats {
+        characteristic: "rate".into(),
+        unit: "N·mm/°".into(),
+        lower: Some(11.2),
+        upper: Some(12.8),
+        capability: Capability {
+            n: 50,
+            excluded: 0,
+            mean: Some(12.0123),
+            sd: Some(0.2311),
+            sd_within: None,
+            min: Some(11.8),
+            max: Some(12.9),
+            median: Some(12.0),
+            cp: None,
+            cpk: Some(1.0432),
+            pp: None,
+            ppk: None,
+            cp_lower_95: None,
+            cp_upper_95: None,
+            cpk_lower_95: Some(0.8123),
+            normality_a2: None,
+            normality_p: None,
+            method: CapabilityMethod::Normal,
+        },
+    }];
+    let record = LotRecord {
+        lot: "L-0517".into(),
+        part: "TS-4410".into(),
+        quantity: 1200,
+        disposition,
         tested: 50,
         failed: 2,
         invalid: 1,
-        flagged: vec![FlaggedPart {
-            serial: Some(EVIL.into()),
-            file: "rig-b/0412 & co.txt".into(),
-            characteristic: "rate".into(),
-            value: Some(12.9),
-            lower: Some(11.2),
-            upper: Some(12.8),
-            verdict: Verdict::Fail,
-            message: "operator note: <b>bent leg</b> | check".into(),
+        plan: Some(PlanSummary {
+            code_letter: Some("J".into()),
+            sample_size: 50,
+            accept: Some(1),
+            reject: Some(2),
+            severity: Severity::Tightened,
+        }),
+        next_severity: None,
+        rate: None,
+        grounds: decision.grounds.iter().map(|g| g.text.clone()).collect(),
+        report_html: "lots/L-0517.html".into(),
+        report_md: "lots/L-0517.md".into(),
+        duplicates: vec![DuplicateFile {
+            file: "rig-b/0412 copy.txt".into(),
+            same_as: "rig-b/0412 & co.txt".into(),
+            lot: Some("L-0517".into()),
         }],
-        statistics: vec![CharacteristicStats {
-            characteristic: "rate".into(),
-            unit: "N·mm/°".into(),
-            lower: Some(11.2),
-            upper: Some(12.8),
-            n: 50,
-            mean: Some(12.0123),
-            sd: Some(0.2311),
-            cpk: Some(1.0432),
-            cpk_lower_95: Some(0.8123),
-            normality_p: None,
-            method: "normal".into(),
-            ..Default::default()
+        superseded: vec![SupersededTest {
+            serial: "SN-7".into(),
+            file: "rig-b/0007.txt".into(),
+            started: None,
+            by: "rig-b/0007-retest.txt".into(),
         }],
-        rejected_files: vec![RejectedFile {
-            file: "rig-c/0007.dat".into(),
-            reason: "line 57: `12,5x` is not a number".into(),
-        }],
-        cautions: default_cautions(),
-        charts: Charts {
-            rate_histogram_svg: rate_histogram_svg(&rates, Some(11.2), Some(12.8), Some(12.0), None, "rate")
-                .unwrap(),
-            curves_svg: curves_svg(
-                &[CurveLine {
-                    label: EVIL.into(),
-                    angle_deg: vec![0.0, 90.0],
-                    torque_nmm: vec![0.0, 1000.0],
-                    flagged: true,
-                }],
-                &[ToleranceWindow { angle_deg: 45.0, lower_nmm: Some(450.0), upper_nmm: Some(550.0) }],
-            )
+        decision: Some(decision),
+        statistics,
+    };
+    let tests = vec![
+        test(EVIL, "rig-b/0412 & co.txt", Verdict::Fail, "operator note: <b>bent leg</b> | check"),
+        test("SN-2", "rig-b/0413.txt", Verdict::Pass, "inside"),
+    ];
+    let mut report = LotReport::new(record, tests, Some((spec(), "specs/TS-4410-C.yaml".into())));
+    report.generated_at = "2024-05-14 06:12".into();
+    report.shift = "S-0514-A".into();
+    report.plant = "Invented plant".into();
+    report.rejected_files = vec![RejectedFile {
+        file: "rig-c/0007.dat".into(),
+        reason: "line 57: `12,5x` is not a number".into(),
+    }];
+    report.charts = Charts {
+        rate_histogram_svg: rate_histogram_svg(&rates, Some(11.2), Some(12.8), Some(12.0), None, "rate")
             .unwrap(),
-            oc_curve_svg: oc_curve_svg(&[(0.0, 1.0), (10.0, 0.1)], Some((4.0, 0.5)), "plan J").unwrap(),
-        },
-    }
+        curves_svg: curves_svg(
+            &[CurveLine {
+                label: EVIL.into(),
+                angle_deg: vec![0.0, 90.0],
+                torque_nmm: vec![0.0, 1000.0],
+                flagged: true,
+            }],
+            &[ToleranceWindow { angle_deg: 45.0, lower_nmm: Some(450.0), upper_nmm: Some(550.0) }],
+        )
+        .unwrap(),
+        oc_curve_svg: oc_curve_svg(&[(0.0, 1.0), (10.0, 0.1)], Some((4.0, 0.5)), "plan J").unwrap(),
+    };
+    report
 }
 
 #[test]
@@ -91,21 +183,25 @@ fn lot_report_html_shows_the_decision_and_escapes_export_text() {
     assert!(html.contains("&lt;script&gt;alert(1)&lt;&#x2f;script&gt;"));
     assert!(html.contains("operator note: &lt;b&gt;bent leg&lt;&#x2f;b&gt; | check"));
     assert!(html.contains("rig-b&#x2f;0412 &amp; co.txt"));
+    assert!(html.contains("Ketterby &amp; Sons &lt;invented&gt;"));
     assert!(html.contains("class=\"decision decision-reject\""));
     assert!(html.contains(">REJECTED<"));
     for shown in [
         "TS-4410",
         "L-0517",
         "1200",
-        "MIL-STD-105E",
+        "mil-std-105e",
         "tightened",
         "specs&#x2f;TS-4410-C.yaml",
         "rig-c&#x2f;0007.dat",
     ] {
         assert!(html.contains(shown), "missing {shown}");
     }
-    // Customer absent and normality p absent: a dash, never "none" or an empty cell.
-    assert!(html.contains("<dt>Customer</dt><dd>—</dd>"));
+    // One flagged part (the passing test is not listed), and the files that do not count.
+    assert!(html.contains("<h2>Flagged parts (1)</h2>"), "flagged count");
+    assert!(html.contains("same bytes as rig-b&#x2f;0412 &amp; co.txt"));
+    assert!(html.contains("serial SN-7 was tested again; rig-b&#x2f;0007-retest.txt counts instead"));
+    // Normality p absent: a dash, never "none" or an empty cell.
     assert!(!html.contains(">none<"));
     // Numbers formatted by the template's filters.
     assert!(html.contains(">12.012<") && html.contains(">1.04<") && html.contains(">0.81<"));
@@ -118,6 +214,18 @@ fn lot_report_html_shows_the_decision_and_escapes_export_text() {
     for caution in default_cautions() {
         assert!(html.contains(&caution.replace('\'', "&#x27;")), "missing caution {caution}");
     }
+}
+
+#[test]
+fn a_lot_without_a_spec_shows_dashes_not_blanks() {
+    let mut report = lot(Disposition::Hold);
+    report.spec = None;
+    report.spec_file = "no spec".into();
+    let html = renderer().render("lot_report.html.j2", &report).unwrap();
+    assert!(html.contains("<dt>Customer</dt><dd>—</dd>"));
+    assert!(html.contains("<dt>Revision</dt><dd>—</dd>"));
+    let md = renderer().render("lot_report.md.j2", &report).unwrap();
+    assert!(md.contains("| Customer | — |"));
 }
 
 #[test]
@@ -140,114 +248,101 @@ fn lot_report_markdown_neutralises_markup() {
     assert!(md.starts_with("# Lot acceptance report — lot L-0517"));
     assert!(md.contains("\\<script\\>alert(1)\\</script\\>"));
     assert!(md.contains("operator note: \\<b\\>bent leg\\</b\\> \\| check"));
-    assert!(md.contains("| Customer | — |"));
+    assert!(md.contains("| Customer | Ketterby \\& Sons \\<invented\\> |"));
     assert!(md.contains("| Accept on / reject on | 1 / 2 |"));
     assert!(!md.contains("<svg"));
-    // Every flagged/statistics table row has the header's number of cells.
+    // Every flagged row has the header's number of cells.
     for line in md.lines().filter(|l| l.starts_with("| \\<script")) {
         assert_eq!(line.matches(" | ").count(), 7, "{line}");
     }
     assert!(md.contains("1. These results are computed only from the rig data supplied"));
 }
 
-#[test]
-fn shift_summary_flags_held_and_rejected_lots() {
-    let summary = ShiftSummary {
+fn shift_record(lots: Vec<LotRecord>) -> ShiftRecord {
+    ShiftRecord {
         shift: "S-0514-A".into(),
-        generated_at: "2024-05-14 14:00".into(),
         files_total: 10,
         files_accepted: 9,
         files_rejected: vec![RejectedFile { file: EVIL.into(), reason: "not a rig export".into() }],
-        lots: vec![
-            LotLine {
-                lot: "L-1".into(),
-                part: "P".into(),
-                disposition: Disposition::Accept,
-                tested: 5,
-                failed: 0,
-                invalid: 0,
-                severity: "normal".into(),
-                report_file: Some("lot-L-1.html".into()),
-                grounds: vec!["accepted on 0".into()],
-            },
-            LotLine {
-                lot: "L-2".into(),
-                part: "P".into(),
-                disposition: Disposition::Hold,
-                tested: 3,
-                failed: 0,
-                invalid: 2,
-                severity: "normal".into(),
-                report_file: None,
-                grounds: vec!["2 invalid curves".into(), "rig not verified".into()],
-            },
-        ],
+        lots,
+        unlisted_tests: Vec::new(),
+        sink_failures: Vec::new(),
+        switching_record: None,
         cautions: default_cautions(),
+        duplicates: Vec::new(),
+    }
+}
+
+#[test]
+fn shift_summary_flags_held_and_rejected_lots() {
+    let accepted = LotRecord {
+        lot: "L-1".into(),
+        grounds: vec!["accepted on 0".into()],
+        ..lot(Disposition::Accept).lot
+    };
+    let mut held = lot(Disposition::Hold).lot;
+    held.lot = "L-2".into();
+    held.grounds = vec!["2 invalid curves".into(), "rig not verified".into()];
+    held.report_html = String::new();
+    let summary = ShiftSummary {
+        generated_at: "2024-05-14 14:00".into(),
+        plant: "Invented plant".into(),
+        summary: shift_record(vec![accepted.clone(), held]),
     };
     let html = renderer().render("shift_summary.html.j2", &summary).unwrap();
     assert!(html.contains("0 rejected · 1 held"));
     assert!(html.contains("<tr class=\"row-hold\">") && html.contains("<tr class=\"row-accept\">"));
-    assert!(html.contains("<a href=\"./lot-L-1.html\">lot-L-1.html</a>"));
+    assert!(html.contains("<a href=\"./lots&#x2f;L-0517.html\">lots&#x2f;L-0517.html</a>"));
     assert!(html.contains("2 invalid curves<br>rig not verified"));
     assert!(!html.contains(EVIL) && html.contains("&lt;script&gt;"));
     assert!(html.contains("a fixture violently"));
 
-    let calm = ShiftSummary { lots: vec![summary.lots[0].clone()], ..summary };
+    let calm = ShiftSummary { summary: shift_record(vec![accepted]), ..summary };
     let html = renderer().render("shift_summary.html.j2", &calm).unwrap();
     assert!(html.contains("ALL 1 ACCEPTED") && html.contains("decision-accept"));
 }
 
 #[test]
 fn tests_csv_quotes_fields_and_leaves_missing_values_empty() {
-    let rows = TestsCsv {
-        rows: vec![
-            TestRow {
-                test_id: "t1".into(),
-                file: "a,b.csv".into(),
-                serial: Some("SN \"7\"".into()),
-                part: Some("P".into()),
-                lot: Some("L".into()),
-                rig: None,
-                operator: Some(EVIL.into()),
-                rate_nmm_per_deg: Some(12.5),
-                free_angle_deg: None,
-                max_torque_nmm: Some(1000.0),
-                verdict: Verdict::Fail,
-                findings: "rate: 12.5 > 12.4; torque@45: ok".into(),
-            },
-            TestRow {
-                test_id: "t2".into(),
-                file: "c.csv".into(),
-                serial: None,
-                part: None,
-                lot: None,
-                rig: None,
-                operator: None,
-                rate_nmm_per_deg: None,
-                free_angle_deg: None,
-                max_torque_nmm: None,
-                verdict: Verdict::Invalid,
-                findings: String::new(),
-            },
-        ],
-    };
-    let csv_text = renderer().render("tests.csv.j2", &rows).unwrap();
+    let mut first = test("SN \"7\"", "a,b.csv", Verdict::Fail, "12.5 > 12.4");
+    first.operator = Some(EVIL.into());
+    first.rig = None;
+    first.metrics.rate_nmm_per_deg = Some(12.5);
+    first.findings.push(Finding {
+        characteristic: "torque@45".into(),
+        verdict: Verdict::Pass,
+        ..first.findings[0].clone()
+    });
+    let mut second = test("x", "c.csv", Verdict::Invalid, "no curve");
+    second.serial = None;
+    second.part = None;
+    second.lot = None;
+    second.rig = None;
+    second.operator = None;
+    second.metrics = CurveMetrics::default();
+    second.findings.clear();
+    second.status = TestStatus::Superseded { by: "d.csv".into() };
+    let r = renderer();
+    let mut csv_text = r.render("tests.csv.j2", &TestsCsv { header: true, rows: Vec::new() }).unwrap();
+    for row in [first, second] {
+        csv_text.push_str(&r.render("tests.csv.j2", &TestsCsv { header: false, rows: vec![row] }).unwrap());
+    }
     let lines: Vec<&str> = csv_text.lines().collect();
     assert_eq!(lines.len(), 3, "{csv_text}");
     assert_eq!(
         lines[0],
-        "test_id,file,serial,part,lot,rig,operator,rate_nmm_per_deg,free_angle_deg,max_torque_nmm,verdict,findings"
+        "test_id,file,serial,part,lot,rig,operator,rate_nmm_per_deg,free_angle_deg,max_torque_nmm,verdict,findings,status"
     );
     assert_eq!(
         lines[1],
-        "t1,\"a,b.csv\",\"SN \"\"7\"\"\",P,L,,<script>alert(1)</script>,12.5,,1000.0,fail,\"rate: 12.5 > 12.4; torque@45: ok\""
+        "\"SN \"\"7\"\"-0000\",\"a,b.csv\",\"SN \"\"7\"\"\",TS-4410,L-0517,,<script>alert(1)</script>,12.5,,1000.0,fail,rate: 12.5 > 12.4,counted"
     );
-    assert_eq!(lines[2], "t2,c.csv,,,,,,,,,invalid,");
-    // An independent reader sees 12 fields per row and the original text.
+    assert_eq!(lines[2], "x-0000,c.csv,,,,,,,,0.0,invalid,,superseded");
+    // An independent reader sees 13 fields per row and the original text.
     let mut reader = csv::Reader::from_reader(csv_text.as_bytes());
     let records: Vec<csv::StringRecord> = reader.records().map(Result::unwrap).collect();
     assert_eq!(records.len(), 2);
-    assert!(records.iter().all(|r| r.len() == 12));
+    assert!(records.iter().all(|r| r.len() == 13));
     assert_eq!(&records[0][1], "a,b.csv");
     assert_eq!(&records[0][2], "SN \"7\"");
 }
@@ -255,12 +350,15 @@ fn tests_csv_quotes_fields_and_leaves_missing_values_empty() {
 #[test]
 fn plant_override_replaces_one_template() {
     let plant = tempfile::tempdir().unwrap();
-    std::fs::write(plant.path().join("lot_report.md.j2"), "Plant format: {{ lot }} {{ disposition }}\n")
-        .unwrap();
+    std::fs::write(
+        plant.path().join("lot_report.md.j2"),
+        "Plant format: {{ lot.lot }} {{ lot.disposition }}\n",
+    )
+    .unwrap();
     std::fs::write(plant.path().join("_report.css.j2"), "body { color: #123456; }").unwrap();
-    let r = Renderer::new(&shipped_templates_dir(), Some(plant.path())).unwrap();
+    let r = Renderer::new(Some(plant.path())).unwrap();
     assert_eq!(r.render("lot_report.md.j2", &lot(Disposition::Hold)).unwrap(), "Plant format: L-0517 hold\n");
-    // The shipped HTML template picks up the plant's style sheet partial.
+    // The built-in HTML template picks up the plant's style sheet partial.
     let html = r.render("lot_report.html.j2", &lot(Disposition::Hold)).unwrap();
     assert!(html.contains("body { color: #123456; }") && !html.contains("--ink"));
 }

@@ -5,7 +5,7 @@
 //! §8.3 switching rules as a serialisable state machine ([`SwitchingState`]), plan
 //! design from producer's and consumer's risks (attribute by exact binomial search,
 //! variables k-method by the Wallis approximation), OC curves for every plan, and the
-//! disposition of a lot from its tests' verdicts ([`dispose`]).
+//! decision on a lot from its tests ([`decide_lot`] → [`twistlot_model::LotDecision`]).
 //!
 //! Not for: reading files (the caller hands over a scheme's text with its origin),
 //! keeping history (the pipeline stores the switching state), or judging curves
@@ -14,20 +14,21 @@
 //!
 //! Main types: [`Scheme`], [`AttributePlan`], [`Severity`], [`InspectionLevel`],
 //! [`SwitchingState`], [`AttributeDesign`], [`VariablesDesign`], [`OcPoint`],
-//! [`LotEvidence`], [`Disposition`], [`SamplingError`].
+//! [`LotInput`], [`BeyondSample`], [`SamplingError`].
 
+pub mod decision;
 pub mod design;
-pub mod disposition;
 pub mod oc;
 pub mod scheme;
 pub mod switching;
 
+pub use decision::{
+    characteristic_limits, characteristic_value, class_plans, decide_lot, zero_acceptance_plan, BeyondSample,
+    LotInput, LotStanding,
+};
 pub use design::{
     design_attribute, design_variables, variables_verdict, AttributeDesign, LimitKind, VariablesDesign,
     VariablesVerdict,
-};
-pub use disposition::{
-    dispose, ClassResult, Disposition, LotEvidence, Outcome, TestEvidence, VariablesEvidence, VariablesResult,
 };
 pub use oc::{attribute_oc, variables_oc, OcPoint};
 pub use scheme::{

@@ -18,46 +18,7 @@ pub fn shipped_mil_std_105e_text() -> &'static str {
     include_str!("../../../plugins/sampling-schemes/mil-std-105e.yaml")
 }
 
-/// Inspection severity under the switching rules.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
-#[serde(rename_all = "lowercase")]
-pub enum Severity {
-    /// Normal inspection (Table II-A).
-    Normal,
-    /// Tightened inspection (Table II-B).
-    Tightened,
-    /// Reduced inspection (Table II-C).
-    Reduced,
-}
-
-impl Severity {
-    /// The lower-case label.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            Severity::Normal => "normal",
-            Severity::Tightened => "tightened",
-            Severity::Reduced => "reduced",
-        }
-    }
-}
-
-impl fmt::Display for Severity {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(self.as_str())
-    }
-}
-
-impl FromStr for Severity {
-    type Err = SamplingError;
-    fn from_str(text: &str) -> Result<Self, SamplingError> {
-        match text.trim().to_ascii_lowercase().as_str() {
-            "normal" => Ok(Severity::Normal),
-            "tightened" => Ok(Severity::Tightened),
-            "reduced" => Ok(Severity::Reduced),
-            _ => Err(SamplingError::UnknownSeverity(text.to_string())),
-        }
-    }
-}
+pub use twistlot_model::{AttributePlan, Severity};
 
 /// Inspection level of Table I.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
@@ -128,24 +89,6 @@ impl From<InspectionLevel> for String {
     fn from(level: InspectionLevel) -> String {
         level.as_str().to_string()
     }
-}
-
-/// A single sampling plan picked from the tables.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
-pub struct AttributePlan {
-    /// Code letter of the row the plan was taken from (after following arrows).
-    pub code_letter: String,
-    /// Units to inspect (the lot size when `hundred_percent`).
-    pub sample_size: u64,
-    /// Acceptance number Ac: accept with this many defectives or fewer.
-    pub accept: u64,
-    /// Rejection number Re: reject with this many or more. Under reduced inspection
-    /// Re may exceed Ac + 1; a count between them accepts but reinstates normal.
-    pub reject: u64,
-    /// Severity whose table the plan came from.
-    pub severity: Severity,
-    /// True when the table's sample reached the lot size, so every unit is inspected.
-    pub hundred_percent: bool,
 }
 
 /// One cell of a master table.

@@ -37,59 +37,7 @@ use twistlot_model::Limits;
 /// The d2 constant for moving ranges of two consecutive values.
 pub const D2_MOVING_RANGE: f64 = 1.128;
 
-/// Which indices [`Capability`] reports.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum CapabilityMethod {
-    /// Normal-theory indices from σ estimates.
-    Normal,
-    /// Percentile-based indices, because normality was rejected.
-    Percentile,
-}
-
-/// Capability of one characteristic over a lot (or any series in time order).
-///
-/// `None` wherever the quantity is undefined: too few values, zero spread, or a
-/// limit missing on the side it needs.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Capability {
-    /// Number of finite values used.
-    pub n: usize,
-    /// Values left out because they were not finite numbers.
-    pub excluded: usize,
-    /// Mean.
-    pub mean: Option<f64>,
-    /// Sample standard deviation s (overall σ).
-    pub sd: Option<f64>,
-    /// Within-lot σ: average moving range / 1.128.
-    pub sd_within: Option<f64>,
-    /// Smallest value.
-    pub min: Option<f64>,
-    /// Largest value.
-    pub max: Option<f64>,
-    /// Median.
-    pub median: Option<f64>,
-    /// Cp from the within-lot σ.
-    pub cp: Option<f64>,
-    /// Cpk from the within-lot σ.
-    pub cpk: Option<f64>,
-    /// Pp from s, or from percentiles under `method: percentile`.
-    pub pp: Option<f64>,
-    /// Ppk from s, or from percentiles under `method: percentile`.
-    pub ppk: Option<f64>,
-    /// Lower end of the two-sided 95 % interval for Cp (χ²).
-    pub cp_lower_95: Option<f64>,
-    /// Upper end of the two-sided 95 % interval for Cp (χ²).
-    pub cp_upper_95: Option<f64>,
-    /// One-sided 95 % lower bound for Cpk (Bissell 1990).
-    pub cpk_lower_95: Option<f64>,
-    /// Anderson–Darling A² (unmodified).
-    pub normality_a2: Option<f64>,
-    /// p-value of the Anderson–Darling test.
-    pub normality_p: Option<f64>,
-    /// Normal or percentile indices.
-    pub method: CapabilityMethod,
-}
+pub use twistlot_model::{Capability, CapabilityMethod};
 
 /// Result of the Anderson–Darling test for normality.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]

@@ -22,7 +22,6 @@
 
 use crate::fit::{linear_fit, LinearFit};
 use crate::text::num;
-use serde::Serialize;
 use std::collections::BTreeMap;
 use twistlot_model::plugin::CheckManifest;
 use twistlot_model::{CurveData, PartSpec, Stroke};
@@ -141,60 +140,9 @@ fn subscript_angles(expression: &str, map: &str) -> Vec<f64> {
     out
 }
 
-/// The map key for an angle: `45.0` → `"45"`, `22.5` → `"22.5"`.
-pub fn angle_key(angle_deg: f64) -> String {
-    format!("{angle_deg}")
-}
+pub use twistlot_model::record::angle_key;
 
-/// Everything measured on one test's curve; serialized as the test's metrics JSON.
-///
-/// `None` means "not measured"; the reason is in [`CurveMetrics::rate_unavailable`]
-/// (for the rate and what derives from it) or in [`CurveMetrics::notes`].
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct CurveMetrics {
-    /// Cycle the metrics come from (from 1).
-    pub evaluated_cycle: u32,
-    /// Number of cycles in the curve.
-    pub cycles: u32,
-    /// Spring rate: least-squares slope of torque on angle in the window, N·mm/°.
-    pub rate_nmm_per_deg: Option<f64>,
-    /// R² of that fit.
-    pub rate_r2: Option<f64>,
-    /// Standard error of the rate, N·mm/°.
-    pub rate_stderr_nmm_per_deg: Option<f64>,
-    /// Intercept of the fit at 0°, N·mm.
-    pub intercept_nmm: Option<f64>,
-    /// Free (zero-torque) angle α0 = −intercept / rate, degrees.
-    pub free_angle_deg: Option<f64>,
-    /// Why the rate (and intercept, free angle, linearity) is missing, in words.
-    pub rate_unavailable: Option<String>,
-    /// Torque on the loading stroke at requested angles (key: angle, see [`angle_key`]), N·mm.
-    pub torque_nmm_at: BTreeMap<String, f64>,
-    /// (load − unload) / load torque at requested angles, %.
-    pub hysteresis_pct_at: BTreeMap<String, f64>,
-    /// (loading area − unloading area) / loading area over the common angle range, %.
-    pub energy_loss_pct: Option<f64>,
-    /// Largest |residual| from the fitted line in the window, % of the maximum torque.
-    pub linearity_pct: Option<f64>,
-    /// Largest torque on the evaluated loading stroke, N·mm.
-    pub max_torque_nmm: f64,
-    /// Largest angle reached on the evaluated loading stroke, degrees.
-    pub max_angle_deg: f64,
-    /// Secant rate between [`CurveMetrics::secant_deg`], N·mm/°.
-    pub secant_rate_nmm_per_deg: Option<f64>,
-    /// Angles the secant rate was asked between, degrees.
-    pub secant_deg: Option<[f64; 2]>,
-    /// Shift of α0 from the first to the last cycle (positive: moved towards the load), degrees.
-    pub set_deg: Option<f64>,
-    /// Tested deflection `[start, end]` the window is a fraction of, degrees.
-    pub deflection_deg: [f64; 2],
-    /// Evaluation window actually used, `[lo, hi]`, degrees.
-    pub window_deg: [f64; 2],
-    /// Loading points inside the window.
-    pub points_in_window: usize,
-    /// Plain-word notes on anything asked for that could not be measured.
-    pub notes: Vec<String>,
-}
+pub use twistlot_model::CurveMetrics;
 
 /// Why a curve cannot be evaluated at all.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]

@@ -1,0 +1,820 @@
+//! Deciding a lot: its tests against the part's sampling agreement, in one call.
+//!
+//! [`decide_lot`] takes everything known about a lot (the part's spec, the severity its
+//! switching history earned, the tests) and returns a [`LotDecision`]: the disposition,
+//! structured grounds with the one that decided, every class's plan and count, the plan
+//! shown for the lot and the count its switching history is fed. No caller parses text.
+//!
+//! The rule, per class with a plan (n, Ac, Re), over the valid tests (verdict not
+//! `invalid`) taken in [`test_order`] (start time, serial, file):
+//! 1. d defectives (a test is defective for class C when one of its findings of class C
+//!    failed) among the counted tests; d ≥ Re rejects, whatever the other tests show.
+//!    Which tests count is the plant's [`BeyondSample`] policy: the first n, or all.
+//! 2. Otherwise fewer than n valid tests holds the lot ("too few valid tests").
+//! 3. Otherwise, when invalid tests are present and d + (invalid tests) would reach Re,
+//!    the lot is held: those parts might be the defectives.
+//! 4. Otherwise d ≤ Ac accepts; under reduced inspection Ac < d < Re accepts and
+//!    reinstates normal inspection.
+//! 5. A critical defective among tests beyond the sample never lets the lot be
+//!    accepted: MIL-STD-105E §6.3–6.4 keep the right to reject any lot in which a
+//!    critical defective is found, so the class rejects and says why.
+//!
+//! A variables plan (k-method) holds when fewer measured values than its n are given,
+//! and otherwise accepts or rejects on the statistic. Tests that name another part than
+//! the lot's hold an otherwise accepted lot. The lot's disposition is the worst of its
+//! parts' (reject over hold over accept).
+
+use crate::design::{design_variables, variables_verdict, LimitKind};
+use crate::scheme::{InspectionLevel, Scheme, Severity};
+use crate::SamplingError;
+use serde::{Deserialize, Serialize};
+use twistlot_model::record::{angle_key, test_order};
+use twistlot_model::spec::{torque_label, ClassPlan, SamplingSpec};
+use twistlot_model::{
+    AttributePlan, CharacteristicClass, ClassDecision, Disposition, Ground, GroundTopic, Limits, LotDecision,
+    PartSpec, SwitchingCount, TestRecord, VariablesDecision, Verdict,
+};
+
+/// What a plan does with valid tests beyond its sample size n (plant config
+/// `beyond_sample`). Either way a critical defective found anywhere blocks acceptance.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum BeyondSample {
+    /// Count the first n valid tests in start-time order (then serial, then file); later
+    /// ones are reported, not counted. This is the plan as the tables define it.
+    #[default]
+    FirstN,
+    /// Count every valid test against the plan's Ac and Re; stricter than the plan when
+    /// more than n parts were tested.
+    CountAll,
+}
+
+/// Where the lot's part stands under the switching rules when the lot comes up.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LotStanding {
+    /// Severity in force.
+    pub severity: Severity,
+    /// Acceptance discontinued until corrective action is recorded.
+    pub discontinued: bool,
+    /// How the part came to that severity, in words (the first ground of the decision).
+    pub explanation: String,
+}
+
+/// Everything needed to decide one lot.
+#[derive(Debug, Clone)]
+pub struct LotInput<'a> {
+    /// Lot identifier.
+    pub lot: &'a str,
+    /// Units in the lot.
+    pub lot_size: u64,
+    /// The part's spec (its sampling agreement and limits).
+    pub spec: &'a PartSpec,
+    /// The part's switching standing; normal inspection when `None`.
+    pub standing: Option<&'a LotStanding>,
+    /// The lot's counted tests (duplicates and superseded retests already left out).
+    pub tests: &'a [&'a TestRecord],
+    /// What to do with tests beyond the sample size.
+    pub beyond_sample: BeyondSample,
+}
+
+/// The c = 0 plan: the normal table's sample size for the letter at every severity (the
+/// tightened table has the same sizes, and a critical characteristic is never sampled
+/// less under reduced inspection, so under reduced it is labelled normal).
+pub fn zero_acceptance_plan(
+    scheme: &Scheme,
+    lot_size: u64,
+    level: InspectionLevel,
+    severity: Severity,
+) -> Result<AttributePlan, SamplingError> {
+    let letter = scheme.code_letter(lot_size, level)?;
+    let table_n = scheme
+        .normal
+        .rows
+        .iter()
+        .find(|(l, _)| *l == letter)
+        .map(|(_, n)| *n)
+        .ok_or_else(|| SamplingError::UnknownLetter(letter.clone()))?;
+    Ok(AttributePlan {
+        code_letter: letter,
+        sample_size: table_n.min(lot_size),
+        accept: 0,
+        reject: 1,
+        severity: if severity == Severity::Reduced { Severity::Normal } else { severity },
+        hundred_percent: table_n >= lot_size,
+    })
+}
+
+/// The attribute plan of every sampled class at `severity`, most serious class first.
+pub fn class_plans(
+    sampling: &SamplingSpec,
+    scheme: &Scheme,
+    lot_size: u64,
+    severity: Severity,
+) -> Result<Vec<(CharacteristicClass, AttributePlan, Option<f64>)>, SamplingError> {
+    if sampling.scheme != scheme.name {
+        return Err(SamplingError::SchemeMismatch(sampling.scheme.clone(), scheme.name.clone()));
+    }
+    let level: InspectionLevel = sampling.level.parse()?;
+    let mut plans = Vec::new();
+    for class in CharacteristicClass::ALL {
+        match class_plan(sampling, class) {
+            ClassPlan::None => {}
+            ClassPlan::Attribute { aql_pct } => {
+                plans.push((class, scheme.plan(lot_size, level, *aql_pct, severity)?, Some(*aql_pct)))
+            }
+            ClassPlan::ZeroAcceptance => {
+                plans.push((class, zero_acceptance_plan(scheme, lot_size, level, severity)?, None))
+            }
+        }
+    }
+    Ok(plans)
+}
+
+fn class_plan(sampling: &SamplingSpec, class: CharacteristicClass) -> &ClassPlan {
+    match class {
+        CharacteristicClass::Critical => &sampling.critical,
+        CharacteristicClass::Major => &sampling.major,
+        CharacteristicClass::Minor => &sampling.minor,
+    }
+}
+
+fn defective_for(test: &TestRecord, class: CharacteristicClass) -> bool {
+    test.findings.iter().any(|f| f.class == class && f.verdict == Verdict::Fail)
+}
+
+fn plural(count: u64, word: &str) -> String {
+    if count == 1 {
+        format!("{count} {word}")
+    } else {
+        format!("{count} {word}s")
+    }
+}
+
+/// The limits a spec gives a characteristic named in a variables plan.
+pub fn characteristic_limits(spec: &PartSpec, characteristic: &str) -> Option<Limits> {
+    let c = &spec.characteristics;
+    match characteristic {
+        "rate" | "rate_nmm_per_deg" => c.rate_nmm_per_deg.as_ref().map(|r| r.limits()),
+        "free_angle" | "free_angle_deg" => c.free_angle_deg.as_ref().map(|f| f.limits()),
+        other => c.torque_at.iter().find(|t| torque_label(t.angle_deg) == other).map(|t| t.limits()),
+    }
+}
+
+/// A test's measured value of a characteristic named in a variables plan.
+pub fn characteristic_value(test: &TestRecord, characteristic: &str) -> Option<f64> {
+    let m = &test.metrics;
+    match characteristic {
+        "rate" | "rate_nmm_per_deg" => m.rate_nmm_per_deg,
+        "free_angle" | "free_angle_deg" => m.free_angle_deg,
+        other => other
+            .strip_prefix("torque@")
+            .and_then(|angle| angle.parse::<f64>().ok())
+            .and_then(|angle| m.torque_nmm_at.get(&angle_key(angle)).copied()),
+    }
+}
+
+/// Decides a lot under the scheme its spec names, looked up with `scheme` (see the module
+/// doc for the rule). A spec without a sampling agreement, or naming a scheme that is not
+/// there, holds the lot with that reason.
+pub fn decide_lot<'s>(input: &LotInput<'_>, scheme: impl FnOnce(&str) -> Option<&'s Scheme>) -> LotDecision {
+    let spec = input.spec;
+    let severity = input.standing.map_or(Severity::Normal, |s| s.severity);
+    let Some(sampling) = &spec.sampling else {
+        return LotDecision::hold(
+            GroundTopic::Evidence,
+            format!("the spec for `{}` names no sampling agreement", spec.part),
+            None,
+        );
+    };
+    let Some(scheme) = scheme(&sampling.scheme) else {
+        return LotDecision::hold(
+            GroundTopic::Evidence,
+            format!("there is no sampling-scheme plugin named `{}`", sampling.scheme),
+            None,
+        );
+    };
+    let mut grounds = Vec::new();
+    if let Some(standing) = input.standing {
+        grounds.push(Ground::note(GroundTopic::Switching, standing.explanation.clone()));
+        if standing.discontinued {
+            grounds.push(Ground::leading(
+                GroundTopic::Switching,
+                Disposition::Hold,
+                format!(
+                    "acceptance under `{}` is discontinued for part {}: no lot is accepted until the \
+                     supplier's corrective action is recorded with `twistlot switching resume {}`",
+                    scheme.name, spec.part, spec.part
+                ),
+            ));
+            return finish(grounds, Vec::new(), None, Some(severity), None);
+        }
+    }
+    if input.tests.is_empty() {
+        grounds.push(Ground::leading(
+            GroundTopic::Evidence,
+            Disposition::Hold,
+            format!("no accepted export carries lot `{}`", input.lot),
+        ));
+        return finish(grounds, Vec::new(), None, Some(severity), None);
+    }
+    let wrong_part: Vec<&str> = input
+        .tests
+        .iter()
+        .filter(|t| t.part.as_deref() != Some(spec.part.as_str()))
+        .map(|t| t.file.as_str())
+        .collect();
+    if !wrong_part.is_empty() {
+        // Decides only when the plans would accept; see the end of this function.
+        grounds.push(Ground::leading(
+            GroundTopic::Evidence,
+            Disposition::Hold,
+            format!(
+                "{} test(s) carry another part number than the lot's `{}`: {}",
+                wrong_part.len(),
+                spec.part,
+                wrong_part.join(", ")
+            ),
+        ));
+    }
+    let plans = match class_plans(sampling, scheme, input.lot_size, severity) {
+        Ok(plans) => plans,
+        Err(err) => {
+            grounds.push(Ground::leading(
+                GroundTopic::Evidence,
+                Disposition::Hold,
+                format!("the lot could not be decided: {err}"),
+            ));
+            return finish(grounds, Vec::new(), None, Some(severity), None);
+        }
+    };
+
+    let mut ordered: Vec<&TestRecord> = input.tests.to_vec();
+    ordered.sort_by(|a, b| test_order(a, b));
+    let valid: Vec<&TestRecord> =
+        ordered.iter().copied().filter(|t| t.verdict_or_invalid() != Verdict::Invalid).collect();
+    let invalid = (ordered.len() - valid.len()) as u64;
+
+    let mut classes = Vec::new();
+    for (class, plan, aql_pct) in plans {
+        let n = plan.sample_size as usize;
+        let counted_len = match input.beyond_sample {
+            BeyondSample::FirstN => n.min(valid.len()),
+            BeyondSample::CountAll => valid.len(),
+        };
+        let (counted, beyond) = valid.split_at(counted_len);
+        let tested = counted.len() as u64;
+        let defectives = counted.iter().filter(|t| defective_for(t, class)).count() as u64;
+        let beyond_defectives = beyond.iter().filter(|t| defective_for(t, class)).count() as u64;
+        let topic = GroundTopic::Class(class);
+        let head = format!(
+            "{class}: {} in {tested} tested, Ac {} Re {} (letter {}, n {}, {}{})",
+            plural(defectives, "defective"),
+            plan.accept,
+            plan.reject,
+            plan.code_letter,
+            n,
+            plan.severity,
+            if plan.hundred_percent { ", 100% inspection" } else { "" },
+        );
+        let (outcome, text) = if defectives >= plan.reject {
+            (Disposition::Reject, format!("{head}: reject"))
+        } else if tested < plan.sample_size {
+            (
+                Disposition::Hold,
+                format!("{head}: hold, too few valid tests: {tested} of {} required", plan.sample_size),
+            )
+        } else if invalid > 0 && defectives + invalid >= plan.reject {
+            (
+                Disposition::Hold,
+                format!(
+                    "{head}: hold, {} could change the decision (retest or replace them)",
+                    plural(invalid, "invalid test")
+                ),
+            )
+        } else if defectives > plan.accept {
+            (
+                Disposition::Accept,
+                format!(
+                    "{head}: accept, but above Ac under reduced inspection: normal inspection is reinstated"
+                ),
+            )
+        } else {
+            (Disposition::Accept, format!("{head}: accept"))
+        };
+        grounds.push(Ground::leading(topic, outcome, text));
+        let mut outcome = outcome;
+        if beyond_defectives > 0 {
+            let count = plural(beyond_defectives, "more defective");
+            if class == CharacteristicClass::Critical && outcome != Disposition::Reject {
+                outcome = Disposition::Reject;
+                grounds.push(Ground::leading(
+                    topic,
+                    Disposition::Reject,
+                    format!(
+                        "{class}: {count} among tests beyond the sample size: a lot in which a critical \
+                         defective is found is not accepted (MIL-STD-105E §6.3–6.4): reject"
+                    ),
+                ));
+            } else {
+                grounds.push(Ground::note(
+                    topic,
+                    format!("{class}: {count} among tests beyond the sample size (not counted by the plan)"),
+                ));
+            }
+        }
+        classes.push(ClassDecision {
+            class,
+            plan,
+            aql_pct,
+            tested,
+            defectives,
+            defectives_beyond_sample: beyond_defectives,
+            invalid,
+            outcome,
+        });
+    }
+
+    let variables = sampling.variables.as_ref().map(|vp| {
+        let (outcome, text, decision) = decide_variables(vp, spec, &valid, input.lot_size);
+        grounds.push(Ground::leading(GroundTopic::Variables, outcome, text));
+        decision
+    });
+    if classes.is_empty() && variables.is_none() {
+        grounds.push(Ground::leading(
+            GroundTopic::Evidence,
+            Disposition::Accept,
+            "no class of this part is sampled: accept",
+        ));
+    }
+    let switching = switching_count(&classes);
+    finish(grounds, classes, variables, Some(severity), switching)
+}
+
+/// Puts the decision together: the worst outcome among class, variables and evidence
+/// grounds decides, and the first ground with that outcome is the deciding one.
+fn finish(
+    mut grounds: Vec<Ground>,
+    classes: Vec<ClassDecision>,
+    variables: Option<VariablesDecision>,
+    severity: Option<Severity>,
+    switching: Option<SwitchingCount>,
+) -> LotDecision {
+    let plans_outcome = classes
+        .iter()
+        .map(|c| c.outcome)
+        .chain(variables.iter().map(|v| v.outcome))
+        .chain(grounds.iter().filter(|g| g.topic != GroundTopic::Evidence).filter_map(|g| g.outcome))
+        .max();
+    let evidence_hold =
+        grounds.iter().any(|g| g.topic == GroundTopic::Evidence && g.outcome == Some(Disposition::Hold));
+    // Evidence grounds (wrong part numbers, no tests) hold a lot the plans would accept;
+    // a rejection the plans reached stands, because more tests cannot undo it.
+    let disposition = match (plans_outcome, evidence_hold) {
+        (Some(Disposition::Reject), _) => Disposition::Reject,
+        (_, true) => Disposition::Hold,
+        (Some(outcome), false) => outcome,
+        (None, false) => grounds.iter().filter_map(|g| g.outcome).max().unwrap_or(Disposition::Hold),
+    };
+    let shown_class =
+        classes.iter().max_by_key(|c| (c.plan.sample_size, std::cmp::Reverse(c.class))).map(|c| c.class);
+    let mut deciding = deciding_index(&grounds, disposition, shown_class);
+    if deciding.is_none() {
+        // Unreachable with the grounds above, but a decision never goes out without its reason.
+        grounds.push(Ground::leading(GroundTopic::Evidence, disposition, "no ground recorded a reason"));
+        deciding = Some(grounds.len() - 1);
+    }
+    LotDecision {
+        disposition,
+        severity,
+        deciding,
+        classes,
+        variables,
+        shown_class,
+        switching: switching.map(|mut count| {
+            count.between_ac_and_re &= disposition == Disposition::Accept;
+            count
+        }),
+        grounds,
+    }
+}
+
+fn deciding_index(
+    grounds: &[Ground],
+    disposition: Disposition,
+    shown: Option<CharacteristicClass>,
+) -> Option<usize> {
+    let leading = |i: &usize| grounds[*i].outcome == Some(disposition);
+    let mut candidates = (0..grounds.len()).filter(leading);
+    if disposition == Disposition::Accept {
+        // Every plan accepted; the one shown for the lot stands for them.
+        let shown_ground = (0..grounds.len())
+            .filter(leading)
+            .find(|i| Some(grounds[*i].topic) == shown.map(GroundTopic::Class));
+        return shown_ground.or_else(|| candidates.next());
+    }
+    candidates.next()
+}
+
+/// The count the part's switching history is fed. The reduced-inspection limit number
+/// is set by an AQL, so it is the count of the class with the strictest AQL plan; with
+/// no AQL plan, that of the class with the largest sample.
+fn switching_count(classes: &[ClassDecision]) -> Option<SwitchingCount> {
+    let strictest = classes
+        .iter()
+        .filter_map(|c| c.aql_pct.map(|aql| (aql, c)))
+        .min_by(|a, b| a.0.total_cmp(&b.0).then(b.1.plan.sample_size.cmp(&a.1.plan.sample_size)))
+        .map(|(_, c)| c);
+    let largest = classes.iter().max_by_key(|c| (c.plan.sample_size, std::cmp::Reverse(c.class)));
+    let class = strictest.or(largest)?;
+    let reinstate = classes.iter().any(|c| c.outcome == Disposition::Accept && c.defectives > c.plan.accept);
+    Some(SwitchingCount {
+        severity: class.plan.severity,
+        sample_size: class.plan.sample_size,
+        defectives: class.defectives,
+        aql_pct: class.aql_pct.unwrap_or(0.0),
+        between_ac_and_re: reinstate,
+    })
+}
+
+fn decide_variables(
+    vp: &twistlot_model::spec::VariablesPlanSpec,
+    spec: &PartSpec,
+    valid: &[&TestRecord],
+    lot_size: u64,
+) -> (Disposition, String, VariablesDecision) {
+    let mut decision = VariablesDecision {
+        characteristic: vp.characteristic.clone(),
+        sample_size: 0,
+        k: None,
+        mean: None,
+        spread: None,
+        sigma_known: vp.sigma.is_some(),
+        q_upper: None,
+        q_lower: None,
+        outcome: Disposition::Hold,
+    };
+    let limits = characteristic_limits(spec, &vp.characteristic);
+    let values: Vec<f64> = valid.iter().filter_map(|t| characteristic_value(t, &vp.characteristic)).collect();
+    let kind = limits.as_ref().and_then(LimitKind::of);
+    let (Some(limits), Some(kind), false) = (limits, kind, values.is_empty()) else {
+        let text =
+            format!("variables on {}: hold, no measured values or limits were given", vp.characteristic);
+        return (Disposition::Hold, text, decision);
+    };
+    let design = match design_variables(vp.aql_pct, vp.alpha, vp.ltpd_pct, vp.beta, vp.sigma.is_some(), kind)
+    {
+        Ok(design) => design,
+        Err(err) => {
+            let text =
+                format!("variables on {}: hold, the plan cannot be designed: {err}", vp.characteristic);
+            return (Disposition::Hold, text, decision);
+        }
+    };
+    let n = design.sample_size.min(lot_size.max(1));
+    decision.sample_size = n;
+    decision.k = Some(design.k);
+    let given = values.len() as u64;
+    if given < n || (vp.sigma.is_none() && given < 2) {
+        let text = format!(
+            "variables on {}: hold, too few measured values: {given} of {n} required",
+            vp.characteristic
+        );
+        return (Disposition::Hold, text, decision);
+    }
+    let used = &values[..n as usize];
+    let verdict = match variables_verdict(used, &limits, design.k, vp.sigma) {
+        Ok(verdict) => verdict,
+        Err(err) => {
+            let text = format!("variables on {}: hold, {err}", vp.characteristic);
+            return (Disposition::Hold, text, decision);
+        }
+    };
+    let outcome = if verdict.accept { Disposition::Accept } else { Disposition::Reject };
+    let spread = if vp.sigma.is_some() { "σ" } else { "s" };
+    let mut stats = Vec::new();
+    if let Some(q) = verdict.q_upper {
+        stats.push(format!("(U − mean)/{spread} {q:.3}"));
+    }
+    if let Some(q) = verdict.q_lower {
+        stats.push(format!("(mean − L)/{spread} {q:.3}"));
+    }
+    let text = format!(
+        "variables on {}: n {}, mean {:.4}, {} {:.4}, {}, k {:.3}: {}",
+        vp.characteristic,
+        n,
+        verdict.mean,
+        if vp.sigma.is_some() { "known σ" } else { "s" },
+        verdict.sigma,
+        stats.join(", "),
+        design.k,
+        outcome
+    );
+    decision.mean = Some(verdict.mean);
+    decision.spread = Some(verdict.sigma);
+    decision.q_upper = verdict.q_upper;
+    decision.q_lower = verdict.q_lower;
+    decision.outcome = outcome;
+    (outcome, text, decision)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use twistlot_model::spec::VariablesPlanSpec;
+    use twistlot_model::{CurveMetrics, Finding, TestStatus};
+
+    /// Lot 1000 at level II is letter J; major at AQL 1.0 normal is n 80, Ac 2, Re 3.
+    fn spec() -> PartSpec {
+        let text = "part: P-1\nrevision: A\ncustomer: invented\nmaterial: { name: wire, modulus_n_per_mm2: 206000 }\n\
+                    geometry: { wire_diameter_mm: 1.0, mean_diameter_mm: 8.0, body_coils: 5, leg_lengths_mm: [10, 10], wind: left }\n\
+                    test: { max_angle_deg: 90 }\n\
+                    characteristics:\n  rate_nmm_per_deg: { nominal: 4.0, tolerance: \"±8%\", class: major }\n\
+                    sampling:\n  level: II\n  critical: { plan: none }\n  major: { plan: attribute, aql_pct: 1.0 }\n  minor: { plan: none }\n";
+        PartSpec::from_yaml("test.yaml", text).unwrap()
+    }
+
+    fn finding(class: CharacteristicClass, verdict: Verdict) -> Finding {
+        Finding {
+            characteristic: "rate".into(),
+            class,
+            value: Some(4.0),
+            lower: Some(3.68),
+            upper: Some(4.32),
+            verdict,
+            message: String::new(),
+        }
+    }
+
+    fn test(id: usize, verdict: Verdict, failing: &[CharacteristicClass]) -> TestRecord {
+        let mut findings: Vec<Finding> = failing.iter().map(|c| finding(*c, Verdict::Fail)).collect();
+        findings.push(finding(CharacteristicClass::Minor, Verdict::Pass));
+        TestRecord {
+            test_id: format!("t{id}"),
+            file: format!("f{id:03}.csv"),
+            content_hash: format!("{id:016x}"),
+            serial: Some(format!("S{id:03}")),
+            part: Some("P-1".into()),
+            lot: Some("L1".into()),
+            rig: None,
+            operator: None,
+            started: Some(format!("2026-12-01T10:{:02}:{:02}", id / 60, id % 60)),
+            rig_format: "native".into(),
+            spec_file: None,
+            spec_revision: None,
+            metrics: CurveMetrics { rate_nmm_per_deg: Some(4.0), ..CurveMetrics::default() },
+            verdict: Some(verdict),
+            findings,
+            status: TestStatus::Counted,
+        }
+    }
+
+    fn tests_with(n: usize, major_fails: usize) -> Vec<TestRecord> {
+        (0..n)
+            .map(|i| {
+                if i < major_fails {
+                    test(i, Verdict::Fail, &[CharacteristicClass::Major])
+                } else {
+                    test(i, Verdict::Pass, &[])
+                }
+            })
+            .collect()
+    }
+
+    fn scheme() -> Scheme {
+        Scheme::shipped().unwrap()
+    }
+
+    fn decide(spec: &PartSpec, tests: &[TestRecord], standing: Option<&LotStanding>) -> LotDecision {
+        decide_with(spec, tests, standing, BeyondSample::FirstN)
+    }
+
+    fn decide_with(
+        spec: &PartSpec,
+        tests: &[TestRecord],
+        standing: Option<&LotStanding>,
+        beyond_sample: BeyondSample,
+    ) -> LotDecision {
+        let refs: Vec<&TestRecord> = tests.iter().collect();
+        let input = LotInput { lot: "L1", lot_size: 1000, spec, standing, tests: &refs, beyond_sample };
+        let scheme = scheme();
+        decide_lot(&input, |name| (name == scheme.name).then_some(&scheme))
+    }
+
+    fn texts(d: &LotDecision) -> Vec<&str> {
+        d.grounds.iter().map(|g| g.text.as_str()).collect()
+    }
+
+    #[test]
+    fn accepts_within_ac_and_names_the_deciding_plan() {
+        // From memory: MIL-STD-105E Table II-A, letter J (n=80), AQL 1.0: Ac 2 Re 3
+        let d = decide(&spec(), &tests_with(80, 2), None);
+        assert_eq!(d.disposition, Disposition::Accept);
+        assert_eq!(
+            d.deciding_ground().map(|g| g.text.as_str()),
+            Some("major: 2 defectives in 80 tested, Ac 2 Re 3 (letter J, n 80, normal): accept")
+        );
+        assert_eq!(
+            d.deciding_ground().map(|g| g.topic),
+            Some(GroundTopic::Class(CharacteristicClass::Major))
+        );
+        let shown = d.shown_plan().unwrap();
+        assert_eq!((shown.plan.sample_size, shown.plan.accept, shown.plan.reject), (80, 2, 3));
+        let count = d.switching.as_ref().unwrap();
+        assert_eq!((count.sample_size, count.defectives, count.aql_pct), (80, 2, 1.0));
+    }
+
+    #[test]
+    fn rejects_at_re_even_with_the_sample_incomplete() {
+        let d = decide(&spec(), &tests_with(80, 3), None);
+        assert_eq!(d.disposition, Disposition::Reject);
+        assert!(d.deciding_ground().unwrap().text.ends_with(": reject"), "{:?}", texts(&d));
+        let d = decide(&spec(), &tests_with(20, 3), None);
+        assert_eq!(d.disposition, Disposition::Reject);
+    }
+
+    #[test]
+    fn holds_with_too_few_valid_tests() {
+        let d = decide(&spec(), &tests_with(18, 0), None);
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert!(d.deciding_ground().unwrap().text.contains("too few valid tests: 18 of 80 required"));
+    }
+
+    #[test]
+    fn invalid_tests_hold_only_when_they_could_change_the_decision() {
+        let mut tests = tests_with(80, 1);
+        tests.push(test(99, Verdict::Invalid, &[]));
+        assert_eq!(decide(&spec(), &tests, None).disposition, Disposition::Accept);
+        tests.push(test(100, Verdict::Invalid, &[]));
+        let d = decide(&spec(), &tests, None);
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert!(d.deciding_ground().unwrap().text.contains("2 invalid tests could change the decision"));
+        let mut tests = tests_with(79, 0);
+        tests.push(test(80, Verdict::Invalid, &[]));
+        assert_eq!(decide(&spec(), &tests, None).disposition, Disposition::Hold);
+    }
+
+    #[test]
+    fn the_first_n_tests_by_start_time_count_whatever_order_they_come_in() {
+        // 80 passing tests started first, then a failing one: only the 80 count.
+        let mut tests = tests_with(80, 0);
+        let mut late = test(200, Verdict::Fail, &[CharacteristicClass::Major]);
+        late.started = Some("2026-12-01T23:00".into());
+        tests.insert(0, late);
+        tests.reverse();
+        let d = decide(&spec(), &tests, None);
+        assert_eq!(d.disposition, Disposition::Accept, "{:?}", texts(&d));
+        let major = &d.classes[0];
+        assert_eq!((major.tested, major.defectives, major.defectives_beyond_sample), (80, 0, 1));
+        assert!(texts(&d).iter().any(|t| t.contains("1 more defective among tests beyond the sample size")));
+        // Counting all of them instead sees the defective.
+        let d = decide_with(&spec(), &tests, None, BeyondSample::CountAll);
+        assert_eq!((d.classes[0].tested, d.classes[0].defectives), (81, 1));
+    }
+
+    #[test]
+    fn a_critical_defective_beyond_the_sample_never_accepts() {
+        let mut spec = spec();
+        spec.sampling.as_mut().unwrap().critical = ClassPlan::ZeroAcceptance;
+        let mut tests = tests_with(80, 0);
+        let mut late = test(300, Verdict::Fail, &[CharacteristicClass::Critical]);
+        late.started = Some("2026-12-02T01:00".into());
+        tests.push(late);
+        let d = decide(&spec, &tests, None);
+        assert_eq!(d.disposition, Disposition::Reject, "{:?}", texts(&d));
+        let deciding = d.deciding_ground().unwrap();
+        assert_eq!(deciding.topic, GroundTopic::Class(CharacteristicClass::Critical));
+        assert!(deciding.text.contains("beyond the sample size"), "{}", deciding.text);
+    }
+
+    #[test]
+    fn zero_acceptance_keeps_its_sample_size_at_every_severity() {
+        let mut spec = spec();
+        spec.sampling.as_mut().unwrap().critical = ClassPlan::ZeroAcceptance;
+        for (severity, label) in [
+            (Severity::Normal, Severity::Normal),
+            (Severity::Tightened, Severity::Tightened),
+            (Severity::Reduced, Severity::Normal),
+        ] {
+            let standing = LotStanding { severity, discontinued: false, explanation: "test".into() };
+            let d = decide(&spec, &tests_with(80, 0), Some(&standing));
+            let critical = d.classes.iter().find(|c| c.class == CharacteristicClass::Critical).unwrap();
+            // From memory: MIL-STD-105E Table I lot 501–1200 level II: J, n = 80; Ac 0 Re 1 by the zero-acceptance rule.
+            assert_eq!(
+                (critical.plan.code_letter.as_str(), critical.plan.sample_size, critical.plan.accept),
+                ("J", 80, 0)
+            );
+            assert_eq!(critical.plan.severity, label, "{severity}");
+        }
+    }
+
+    #[test]
+    fn reduced_between_ac_and_re_accepts_and_reinstates_normal() {
+        let standing =
+            LotStanding { severity: Severity::Reduced, discontinued: false, explanation: "reduced".into() };
+        // From memory: MIL-STD-105E Table II-C, letter J (n=32), AQL 1.0: Ac 1 Re 3
+        let d = decide(&spec(), &tests_with(32, 2), Some(&standing));
+        assert_eq!(d.disposition, Disposition::Accept);
+        assert!(d.switching.as_ref().unwrap().between_ac_and_re);
+        assert!(d.deciding_ground().unwrap().text.contains("normal inspection is reinstated"));
+        assert_eq!(d.grounds[0].text, "reduced", "the standing's explanation comes first");
+    }
+
+    #[test]
+    fn discontinued_parts_and_wrong_part_numbers_hold() {
+        let standing =
+            LotStanding { severity: Severity::Tightened, discontinued: true, explanation: "stopped".into() };
+        let d = decide(&spec(), &tests_with(80, 0), Some(&standing));
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert!(d.deciding_ground().unwrap().text.contains("discontinued"));
+        assert!(d.switching.is_none());
+
+        let mut tests = tests_with(80, 0);
+        tests[3].part = Some("P-2".into());
+        let d = decide(&spec(), &tests, None);
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert_eq!(d.deciding_ground().unwrap().topic, GroundTopic::Evidence);
+        assert!(d.deciding_ground().unwrap().text.contains("another part number"));
+        // A rejection stands even with a stray part number among the tests.
+        let mut tests = tests_with(80, 3);
+        tests[70].part = None;
+        assert_eq!(decide(&spec(), &tests, None).disposition, Disposition::Reject);
+    }
+
+    #[test]
+    fn no_tests_or_no_agreement_hold_with_the_reason() {
+        let d = decide(&spec(), &[], None);
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert!(d.deciding_ground().unwrap().text.contains("no accepted export carries lot `L1`"));
+        let mut spec = spec();
+        spec.sampling = None;
+        let d = decide(&spec, &tests_with(80, 0), None);
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert!(d.deciding_ground().unwrap().text.contains("names no sampling agreement"));
+    }
+
+    fn variables_spec() -> PartSpec {
+        let mut spec = spec();
+        let sampling = spec.sampling.as_mut().unwrap();
+        sampling.major = ClassPlan::None;
+        sampling.variables = Some(VariablesPlanSpec {
+            characteristic: "rate".into(),
+            aql_pct: 1.0,
+            ltpd_pct: 6.0,
+            alpha: 0.05,
+            beta: 0.10,
+            sigma: None,
+        });
+        spec
+    }
+
+    fn with_rates(values: &[f64]) -> Vec<TestRecord> {
+        values
+            .iter()
+            .enumerate()
+            .map(|(i, v)| {
+                let mut t = test(i, Verdict::Pass, &[]);
+                t.metrics.rate_nmm_per_deg = Some(*v);
+                t
+            })
+            .collect()
+    }
+
+    fn spread(n: usize, mean: f64, half_width: f64) -> Vec<f64> {
+        (0..n).map(|i| mean + half_width * (2.0 * i as f64 / (n - 1) as f64 - 1.0)).collect()
+    }
+
+    #[test]
+    fn variables_plan_accepts_rejects_and_holds() {
+        // The plan is n 41, k ≈ 1.89 (see the design tests); a tight spread accepts.
+        let d = decide(&variables_spec(), &with_rates(&spread(41, 4.0, 0.1)), None);
+        assert_eq!(d.disposition, Disposition::Accept, "{:?}", texts(&d));
+        assert_eq!(d.variables.as_ref().unwrap().sample_size, 41);
+        assert_eq!(d.deciding_ground().unwrap().topic, GroundTopic::Variables);
+        // A mean close to the upper limit rejects although every value is inside it.
+        let values = spread(41, 4.215, 0.1);
+        assert!(values.iter().all(|v| *v < 4.32));
+        let d = decide(&variables_spec(), &with_rates(&values), None);
+        assert_eq!(d.disposition, Disposition::Reject, "{:?}", texts(&d));
+        let d = decide(&variables_spec(), &with_rates(&spread(20, 4.0, 0.1)), None);
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert!(d.deciding_ground().unwrap().text.contains("too few measured values: 20 of 41"));
+    }
+
+    #[test]
+    fn a_wrong_scheme_or_level_holds_with_the_reason() {
+        let mut spec = spec();
+        spec.sampling.as_mut().unwrap().scheme = "plant-own".into();
+        let d = decide(&spec, &tests_with(80, 0), None);
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert!(d.deciding_ground().unwrap().text.contains("no sampling-scheme plugin named `plant-own`"));
+        let mut spec = self::spec();
+        spec.sampling.as_mut().unwrap().level = "IV".into();
+        let d = decide(&spec, &tests_with(80, 0), None);
+        assert_eq!(d.disposition, Disposition::Hold);
+        assert!(
+            d.deciding_ground().unwrap().text.contains("`IV` is not an inspection level"),
+            "{:?}",
+            texts(&d)
+        );
+    }
+}

@@ -22,9 +22,13 @@ pub mod checks;
 pub mod fit;
 pub mod judge;
 pub mod metrics;
+pub mod nonnormal;
 mod text;
 
-pub use capability::{anderson_darling, capability, Capability, CapabilityMethod, Normality};
+pub use capability::{
+    anderson_darling, capability, lot_capability, Absent, AbsentReason, Capability, CapabilityMethod, Normality,
+    OrderedValue, Subgrouping, WithinSigma,
+};
 pub use checks::{CheckError, CheckSet};
 pub use fit::{linear_fit, LinearFit};
 pub use judge::{judge, judge_with, Judgement};

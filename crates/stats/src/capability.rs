@@ -311,7 +311,6 @@ pub fn normal_indices(mean: f64, sigma: f64, limits: Limits) -> (Option<f64>, Op
     (cp, cpk)
 }
 
-
 /// c4(m) = √(2/(m − 1))·Γ(m/2)/Γ((m − 1)/2): E[s] = c4·σ for m normal values
 /// (NIST/SEMATECH e-Handbook §6.3.2; ASTM E2587). `None` below m = 2.
 pub fn c4(m: usize) -> Option<f64> {
@@ -378,11 +377,9 @@ pub fn within_sigma(in_time_order: &[f64], size: usize) -> Result<WithinSigma, A
             ),
         ));
     }
-    let s_bar = in_time_order
-        .chunks_exact(size)
-        .map(|group| mean_sd(group).map_or(0.0, |(_, s)| s))
-        .sum::<f64>()
-        / k as f64;
+    let s_bar =
+        in_time_order.chunks_exact(size).map(|group| mean_sd(group).map_or(0.0, |(_, s)| s)).sum::<f64>()
+            / k as f64;
     let c4 = c4(size).unwrap_or(f64::NAN);
     if !(s_bar > 0.0) {
         return Err(Absent::new(
@@ -458,7 +455,12 @@ pub fn lot_capability(values: &[OrderedValue], limits: Limits, subgroups: Option
     summarise(&finite, excluded, limits, within)
 }
 
-fn summarise(finite: &[f64], excluded: usize, limits: Limits, within: Result<WithinSigma, Absent>) -> Capability {
+fn summarise(
+    finite: &[f64],
+    excluded: usize,
+    limits: Limits,
+    within: Result<WithinSigma, Absent>,
+) -> Capability {
     let n = finite.len();
     let mut sorted = finite.to_vec();
     sorted.sort_by(f64::total_cmp);
@@ -534,7 +536,8 @@ fn summarise(finite: &[f64], excluded: usize, limits: Limits, within: Result<Wit
             cap.ppk_lower_95 = ppk.and_then(|ppk| bissell_lower_bound(ppk, n, nu));
         }
         (Some(_), Some(_)) => {
-            let points = nonnormal::empirical_points(&sorted).map(|p| (CapabilityMethod::Percentile, p, None));
+            let points =
+                nonnormal::empirical_points(&sorted).map(|p| (CapabilityMethod::Percentile, p, None));
             let points = points.or_else(|| {
                 nonnormal::fit_lognormal3(&sorted)
                     .map(|f| (CapabilityMethod::Fitted, (f.x_low, f.x_median, f.x_high), Some(f)))
@@ -629,7 +632,11 @@ mod tests {
         values
             .iter()
             .enumerate()
-            .map(|(i, &v)| OrderedValue { value: v, started_s: Some(100.0 * i as f64), key: format!("S{i:04}") })
+            .map(|(i, &v)| OrderedValue {
+                value: v,
+                started_s: Some(100.0 * i as f64),
+                key: format!("S{i:04}"),
+            })
             .collect()
     }
 
@@ -637,7 +644,11 @@ mod tests {
     fn within_sigma_is_s_bar_over_c4_of_consecutive_subgroups() {
         // Five subgroups of 4 and two values left over.
         let values: Vec<f64> = (0..22).map(|i| 10.0 + ((i * 7) % 5) as f64 * 0.1 + (i / 4) as f64).collect();
-        let cap = lot_capability(&timed(&values), Limits { lower: Some(0.0), upper: Some(30.0) }, Some(Subgrouping { size: 4 }));
+        let cap = lot_capability(
+            &timed(&values),
+            Limits { lower: Some(0.0), upper: Some(30.0) },
+            Some(Subgrouping { size: 4 }),
+        );
         let within = cap.within.clone().expect("five full subgroups");
         assert_eq!((within.subgroups, within.values_left_over, within.subgroup_size), (5, 2, 4));
         // Source: NIST/SEMATECH e-Handbook §6.3.2: σ̂ = S̄/c4, S̄ the mean of the subgroups' s.

@@ -26,8 +26,8 @@ pub mod nonnormal;
 mod text;
 
 pub use capability::{
-    anderson_darling, capability, lot_capability, Absent, AbsentReason, Capability, CapabilityMethod, Normality,
-    OrderedValue, Subgrouping, WithinSigma,
+    anderson_darling, capability, lot_capability, Absent, AbsentReason, Capability, CapabilityMethod,
+    Normality, OrderedValue, Subgrouping, WithinSigma,
 };
 pub use checks::{CheckError, CheckSet};
 pub use fit::{linear_fit, LinearFit};

@@ -315,8 +315,9 @@ mod tests {
     #[test]
     fn a_two_humped_lot_is_not_fitted() {
         // Two separate clusters: no lognormal describes them.
-        let lot: Vec<f64> =
-            (0..60).map(|i| if i % 2 == 0 { 10.0 + (i as f64) * 0.001 } else { 20.0 + (i as f64) * 0.001 }).collect();
+        let lot: Vec<f64> = (0..60)
+            .map(|i| if i % 2 == 0 { 10.0 + (i as f64) * 0.001 } else { 20.0 + (i as f64) * 0.001 })
+            .collect();
         assert_eq!(fit_lognormal3(&lot), None);
         assert_eq!(fit_lognormal3(&lot[..10]), None);
     }

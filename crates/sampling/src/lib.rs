@@ -24,16 +24,16 @@ pub mod switching;
 
 pub use design::{
     design_attribute, design_variables, variables_verdict, AttributeDesign, LimitKind, VariablesDesign,
-    VariablesVerdict,
+    VariablesVerdict, WallisPlan,
 };
 pub use disposition::{
     dispose, ClassResult, Disposition, LotEvidence, Outcome, TestEvidence, VariablesEvidence, VariablesResult,
 };
-pub use oc::{attribute_oc, variables_oc, OcPoint};
+pub use oc::{attribute_oc, noncentral_t_cdf, noncentral_t_sf, variables_oc, OcPoint};
 pub use scheme::{
     shipped_mil_std_105e_text, AttributePlan, InspectionLevel, Scheme, Severity, SwitchingRules,
 };
-pub use switching::{Conditions, LotOutcome, SwitchingState, Transition};
+pub use switching::{Conditions, LimitCell, LimitNumbers, LotOutcome, SwitchingState, Transition};
 
 use twistlot_model::DocumentError;
 

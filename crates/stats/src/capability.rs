@@ -340,7 +340,7 @@ pub fn cp_lower_bound(index: f64, nu: f64) -> Option<f64> {
 /// Ĉpk − z·√(1/(9n) + Ĉpk²/(2ν)), with `n` values behind the mean and ν degrees of
 /// freedom behind σ (ν = n − 1 in Bissell's paper).
 pub fn bissell_lower_bound(cpk: f64, n: usize, nu: f64) -> Option<f64> {
-    if n < 2 || !(nu > 0.0) || !cpk.is_finite() {
+    if n < 2 || nu.is_nan() || nu <= 0.0 || !cpk.is_finite() {
         return None;
     }
     Some(cpk - z_confidence() * (1.0 / (9.0 * n as f64) + cpk * cpk / (2.0 * nu)).sqrt())
@@ -381,7 +381,7 @@ pub fn within_sigma(in_time_order: &[f64], size: usize) -> Result<WithinSigma, A
         in_time_order.chunks_exact(size).map(|group| mean_sd(group).map_or(0.0, |(_, s)| s)).sum::<f64>()
             / k as f64;
     let c4 = c4(size).unwrap_or(f64::NAN);
-    if !(s_bar > 0.0) {
+    if s_bar.is_nan() || s_bar <= 0.0 {
         return Err(Absent::new(
             AbsentReason::NoWithinSpread,
             "no within-subgroup spread: every subgroup's values are equal, so Cp and Cpk are unbounded",

@@ -142,7 +142,7 @@ fn fit_threshold(values: &[f64]) -> Option<f64> {
     let min = values.iter().copied().fold(f64::INFINITY, f64::min);
     let max = values.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     let range = max - min;
-    if !(range > 0.0) {
+    if range.is_nan() || range <= 0.0 {
         return None;
     }
     // τ = min − range·e^θ; θ from the neighbourhood of the minimum to far below it,

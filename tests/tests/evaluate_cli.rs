@@ -31,7 +31,7 @@ fn the_demo_shift_is_judged_part_by_part() {
     let (code, rows) = evaluate_json(&[shift.to_str().unwrap(), "--plant", plant.to_str().unwrap()]);
     // Two broken exports and the lot list are rejected, so the run says so.
     assert_eq!(code, 3);
-    assert_eq!(rows.len(), 210);
+    assert_eq!(rows.len(), 233);
     for key in [
         "test_id",
         "file",
@@ -76,7 +76,7 @@ fn the_demo_shift_is_judged_part_by_part() {
     assert_eq!(failed.len(), 7, "{failed:?}");
     // The exec-converted rig's parts are judged like any other.
     let gantry = rows.iter().filter(|r| r["rig"] == "RIG-D").count();
-    assert_eq!(gantry, 27);
+    assert_eq!(gantry, 50);
 }
 
 #[test]
@@ -109,7 +109,7 @@ fn without_a_spec_metrics_come_without_verdicts() {
     let plugins = workspace_root().join("sample_lots/plugins");
     let (code, rows) = evaluate_json(&[lot.to_str().unwrap(), "--plugins", plugins.to_str().unwrap()]);
     assert_eq!(code, 0);
-    assert_eq!(rows.len(), 27);
+    assert_eq!(rows.len(), 50);
     assert!(rows.iter().all(|r| r["verdict"].is_null() && r["findings"].as_array().unwrap().is_empty()));
     assert!(rows.iter().all(|r| r["rate_nmm_per_deg"].as_f64().is_some()));
 }

@@ -3,7 +3,8 @@
 //! For: units and their conversion to the canonical N·mm and degrees
 //! ([`units`]), the canonical curve schema ([`curve`]), test metadata
 //! ([`metadata`]), part specs with tolerances and verdicts ([`spec`]), plugin
-//! manifests ([`plugin`]), the result records every output reads ([`record`]), YAML
+//! manifests ([`plugin`]), the result records every output reads ([`record`],
+//! [`capability`]), YAML
 //! errors that name file, line and field ([`yaml`]), and the planning records: rigs
 //! ([`rig`]), the shift's lot list ([`lot_list`]) and plant-local times ([`plant_time`]).
 //!
@@ -16,6 +17,7 @@
 //! [`LotDecision`], [`ShiftRecord`] with the enums [`Disposition`], [`Severity`] and
 //! [`InspectionState`].
 
+pub mod capability;
 pub mod curve;
 pub mod lot_list;
 pub mod metadata;
@@ -28,16 +30,16 @@ pub mod units;
 pub mod yaml;
 pub mod yaml_list;
 
+pub use capability::{Absent, AbsentReason, Capability, CapabilityMethod, FittedDistribution, WithinSigma};
 pub use curve::{CurveData, Stroke};
 pub use lot_list::{ListedLot, LotList};
 pub use metadata::TestMetadata;
 pub use plant_time::{BadTime, ClockTime, PlantTime};
 pub use plugin::{Manifest, PluginHeader, PluginKind};
 pub use record::{
-    AttributePlan, Capability, CapabilityMethod, CharacteristicStats, ClassDecision, CurveMetrics,
-    Disposition, DuplicateFile, Ground, GroundTopic, InspectionState, LotDecision, LotRecord, PlanSummary,
-    RateSummary, RejectedFile, Severity, ShiftRecord, SupersededTest, SwitchingCount, TestRecord, TestStatus,
-    UnknownLabel, VariablesDecision,
+    AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, Disposition, DuplicateFile, Ground,
+    GroundTopic, InspectionState, LotDecision, LotRecord, PlanSummary, RateSummary, RejectedFile, Severity,
+    ShiftRecord, SupersededTest, SwitchingCount, TestRecord, TestStatus, UnknownLabel, VariablesDecision,
 };
 pub use rig::{validate_rigs, Availability, ReferenceSpring, Rig, RigFieldError, RigList, ShiftClock};
 pub use spec::{CharacteristicClass, Finding, Limits, PartSpec, Tolerance, Verdict};

@@ -5,6 +5,7 @@
 //! crates fill them (`stats` the metrics, `sampling` the lot decision); nothing
 //! above copies them into look-alike structs.
 
+use crate::capability::Capability;
 use crate::spec::{CharacteristicClass, Finding, Verdict};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -258,6 +259,24 @@ pub fn start_key(started: &str) -> Option<String> {
         }
     };
     Some(format!("{year:04}-{month:02}-{day:02}T{hour:02}:{minute:02}:{second:02}.{fraction:0<9}"))
+}
+
+/// A start time as seconds since 1970-01-01T00:00 on the plant's clock (the same forms
+/// [`start_key`] reads); `None` when it cannot be read.
+pub fn start_seconds(started: &str) -> Option<f64> {
+    let key = start_key(started)?;
+    let number = |range: std::ops::Range<usize>| key.get(range).and_then(|s| s.parse::<i64>().ok());
+    let (year, month, day) = (number(0..4)?, number(5..7)?, number(8..10)?);
+    let (hour, minute, second) = (number(11..13)?, number(14..16)?, number(17..19)?);
+    let fraction: f64 = format!("0.{}", key.get(20..)?).parse().ok()?;
+    // Days from the civil date (proleptic Gregorian), as in H. Hinnant's `days_from_civil`.
+    let y = if month <= 2 { year - 1 } else { year };
+    let era = y.div_euclid(400);
+    let year_of_era = y - era * 400;
+    let day_of_year = (153 * (month + if month > 2 { -3 } else { 9 }) + 2) / 5 + day - 1;
+    let day_of_era = year_of_era * 365 + year_of_era / 4 - year_of_era / 100 + day_of_year;
+    let days = era * 146_097 + day_of_era - 719_468;
+    Some((days * 86_400 + hour * 3_600 + minute * 60 + second) as f64 + fraction)
 }
 
 /// The order tests are drawn in when it matters (which retest counts, which n tests a
@@ -548,70 +567,6 @@ pub struct RateSummary {
     pub method: Option<String>,
 }
 
-/// Which indices [`Capability`] reports.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "lowercase")]
-pub enum CapabilityMethod {
-    /// Normal-theory indices from σ estimates.
-    Normal,
-    /// Percentile-based indices, because normality was rejected.
-    Percentile,
-}
-
-impl CapabilityMethod {
-    /// The lower-case label.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            CapabilityMethod::Normal => "normal",
-            CapabilityMethod::Percentile => "percentile",
-        }
-    }
-}
-
-/// Capability of one characteristic over a lot, as `stats::capability` computes it.
-///
-/// `None` wherever the quantity is undefined: too few values, zero spread, or a
-/// limit missing on the side it needs.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Capability {
-    /// Number of finite values used.
-    pub n: usize,
-    /// Values left out because they were not finite numbers.
-    pub excluded: usize,
-    /// Mean.
-    pub mean: Option<f64>,
-    /// Sample standard deviation s (overall σ).
-    pub sd: Option<f64>,
-    /// Within-lot σ.
-    pub sd_within: Option<f64>,
-    /// Smallest value.
-    pub min: Option<f64>,
-    /// Largest value.
-    pub max: Option<f64>,
-    /// Median.
-    pub median: Option<f64>,
-    /// Cp from the within-lot σ.
-    pub cp: Option<f64>,
-    /// Cpk from the within-lot σ.
-    pub cpk: Option<f64>,
-    /// Pp from s, or from percentiles under `method: percentile`.
-    pub pp: Option<f64>,
-    /// Ppk from s, or from percentiles under `method: percentile`.
-    pub ppk: Option<f64>,
-    /// Lower end of the two-sided 95 % interval for Cp (χ²).
-    pub cp_lower_95: Option<f64>,
-    /// Upper end of the two-sided 95 % interval for Cp (χ²).
-    pub cp_upper_95: Option<f64>,
-    /// One-sided 95 % lower bound for Cpk (Bissell 1990).
-    pub cpk_lower_95: Option<f64>,
-    /// Anderson–Darling A² (unmodified).
-    pub normality_a2: Option<f64>,
-    /// p-value of the Anderson–Darling test.
-    pub normality_p: Option<f64>,
-    /// Normal or percentile indices.
-    pub method: CapabilityMethod,
-}
-
 /// A lot's statistics of one characteristic, with the drawing's limits.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CharacteristicStats {
@@ -790,6 +745,22 @@ mod tests {
         assert_eq!(json, serde_json::json!({"status": "superseded", "by": "b.csv"}));
         assert!(!status.is_counted());
         assert!(TestStatus::default().is_counted());
+    }
+
+    #[test]
+    fn start_times_in_either_form_compare_and_count_seconds() {
+        assert_eq!(start_key("2026-12-01T14:03").as_deref(), Some("2026-12-01T14:03:00.000000000"));
+        assert_eq!(start_key("01.12.2026 14:03:07,5").as_deref(), Some("2026-12-01T14:03:07.500000000"));
+        assert_eq!(start_key("2026-12-01 14:03:07Z"), start_key("2026-12-01T14:03:07"));
+        for bad in ["", "yesterday", "2026-13-01T10:00", "2026-12-01T25:00", "12/01/2026 10:00"] {
+            assert_eq!(start_key(bad), None, "{bad}");
+        }
+        // Source: POSIX time of 2000-01-01T00:00:00Z is 946684800 (IEEE Std 1003.1, "Seconds Since the Epoch").
+        assert_eq!(start_seconds("2000-01-01T00:00"), Some(946_684_800.0));
+        // Common practice, no published source: one day and 90.5 s later.
+        assert_eq!(start_seconds("2000-01-02T00:01:30.5"), Some(946_684_800.0 + 86_400.0 + 90.5));
+        // Common practice, no published source: a leap day, as Python's datetime gives it (1709208000).
+        assert_eq!(start_seconds("29.02.2024 12:00"), Some(1_709_208_000.0));
     }
 
     #[test]

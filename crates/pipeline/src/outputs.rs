@@ -124,7 +124,10 @@ fn lot_charts(event: &LotEvent<'_>, curves_per_chart: usize) -> report::Charts {
     let rates: Vec<f64> = counted().filter_map(|t| t.metrics.rate_nmm_per_deg).collect();
     let rate_spec = spec.and_then(|s| s.characteristics.rate_nmm_per_deg.as_ref());
     let rate_stats = record.statistics.iter().find(|s| s.characteristic == "rate");
-    let fit = rate_stats.and_then(|s| Some((s.capability.mean?, s.capability.sd?)));
+    // A fitted normal curve only where the normality test ran and did not reject it.
+    let fit = rate_stats
+        .filter(|s| s.capability.normal_curve)
+        .and_then(|s| Some((s.capability.mean?, s.capability.sd?)));
     let histogram = report::rate_histogram_svg(
         &rates,
         rate_spec.and_then(|r| r.limits().lower),

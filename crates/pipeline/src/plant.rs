@@ -27,6 +27,10 @@ struct PlantFile {
     #[serde(default)]
     beyond_sample: twistlot_sampling::BeyondSample,
     #[serde(default)]
+    variables_non_normal: twistlot_sampling::NonNormalRule,
+    #[serde(default)]
+    capability: CapabilityConfig,
+    #[serde(default)]
     switching: SwitchingConfig,
 }
 
@@ -50,6 +54,16 @@ impl SwitchingConfig {
             reduced_approved: self.reduced_approved.iter().any(|p| p == part),
         }
     }
+}
+
+/// How the plant forms rational subgroups for the within-subgroup σ behind Cp/Cpk.
+#[derive(Debug, Clone, Default, PartialEq, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct CapabilityConfig {
+    /// Consecutive tests (by start time) per subgroup; none: no rational subgroups, so
+    /// lots get Pp/Ppk only and say why Cp/Cpk are not given.
+    #[serde(default)]
+    pub subgroup_size: Option<usize>,
 }
 
 /// A rig the plant runs.
@@ -88,6 +102,10 @@ pub struct Plant {
     pub checks: Vec<String>,
     /// What the sampling plans do with tests beyond their sample size.
     pub beyond_sample: twistlot_sampling::BeyondSample,
+    /// What a variables plan does with values that fail normality.
+    pub variables_non_normal: twistlot_sampling::NonNormalRule,
+    /// Rational subgroups for Cp/Cpk.
+    pub capability: CapabilityConfig,
     /// Conditions for reduced inspection.
     pub switching: SwitchingConfig,
 }
@@ -153,6 +171,8 @@ impl Plant {
             sinks: file.sinks,
             checks: file.checks,
             beyond_sample: file.beyond_sample,
+            variables_non_normal: file.variables_non_normal,
+            capability: file.capability,
             switching: file.switching,
         })
     }

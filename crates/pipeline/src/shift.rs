@@ -25,13 +25,14 @@ use crate::switching::{
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use twistlot_ingest::expand_inputs;
+use twistlot_model::record::start_seconds;
 use twistlot_model::spec::torque_label;
 use twistlot_model::{
     CharacteristicStats, DocumentError, GroundTopic, Limits, ListedLot, LotDecision, LotList, LotRecord,
     PlanSummary, RateSummary, RejectedFile, ShiftRecord, TestRecord, Verdict,
 };
-use twistlot_sampling::{decide_lot, LotInput};
-use twistlot_stats::{angle_key, capability};
+use twistlot_sampling::{characteristic_value, decide_lot, LotInput};
+use twistlot_stats::{anderson_darling, angle_key, lot_capability, OrderedValue, Subgrouping};
 
 /// The shift's lot list file, inside the shift folder.
 pub const LOT_LIST: &str = "lots.yaml";
@@ -308,13 +309,17 @@ pub fn decide_and_push(
                     standing: standing.as_ref(),
                     tests: &counted,
                     beyond_sample: plant.config.as_ref().map(|c| c.beyond_sample).unwrap_or_default(),
+                    variables_normality_p: variables_normality(&entry.spec, &counted),
+                    non_normal: plant.config.as_ref().map(|c| c.variables_non_normal).unwrap_or_default(),
                 };
                 decide_lot(&input, |name| plant.schemes.get(name).map(|s| s.as_ref()))
             }
         };
         let entry = SwitchingEntry::for_decision(&listed.part, &listed.lot, shift, &decision);
         let next = standings.feed(&listed.part, &entry, &mut decision);
-        let statistics = spec.map(|e| lot_statistics(&e.spec, &counted)).unwrap_or_default();
+        let subgroups =
+            plant.config.as_ref().and_then(|c| c.capability.subgroup_size).map(|size| Subgrouping { size });
+        let statistics = spec.map(|e| lot_statistics(&e.spec, &counted, subgroups)).unwrap_or_default();
         let (tested, failed, invalid) = verdict_counts(counted.iter().copied());
         let lot_file = lot_file_name(&listed.lot);
         let lot_record = LotRecord {
@@ -375,31 +380,55 @@ pub fn decide_and_push(
     Ok(summary)
 }
 
-/// A lot's statistics of the rate and of every toleranced free angle and torque.
-fn lot_statistics(spec: &twistlot_model::PartSpec, tests: &[&TestRecord]) -> Vec<CharacteristicStats> {
+/// The Anderson–Darling p-value of the values a part's variables plan judges, when it
+/// has one and there are enough values for the test.
+fn variables_normality(spec: &twistlot_model::PartSpec, tests: &[&TestRecord]) -> Option<f64> {
+    let plan = spec.sampling.as_ref()?.variables.as_ref()?;
+    let valid = tests.iter().filter(|t| t.verdict_or_invalid() != Verdict::Invalid);
+    let values: Vec<f64> = valid.filter_map(|t| characteristic_value(t, &plan.characteristic)).collect();
+    anderson_darling(&values).map(|n| n.p_value)
+}
+
+/// A lot's statistics of the rate and of every toleranced free angle and torque, in
+/// start-time order (then serial), never in file order.
+fn lot_statistics(
+    spec: &twistlot_model::PartSpec,
+    tests: &[&TestRecord],
+    subgroups: Option<Subgrouping>,
+) -> Vec<CharacteristicStats> {
     let mut statistics = Vec::new();
-    let mut push = |name: String, unit: &str, limits: Limits, values: Vec<f64>| {
+    let mut push = |name: String, unit: &str, limits: Limits, value: &dyn Fn(&TestRecord) -> Option<f64>| {
+        let values: Vec<OrderedValue> = tests
+            .iter()
+            .filter_map(|t| {
+                Some(OrderedValue {
+                    value: value(t)?,
+                    started_s: t.started.as_deref().and_then(start_seconds),
+                    key: format!("{}\u{0}{}", t.serial.as_deref().unwrap_or(""), t.file),
+                })
+            })
+            .collect();
+        if values.is_empty() && name == "rate" {
+            return;
+        }
         statistics.push(CharacteristicStats {
             characteristic: name,
             unit: unit.to_string(),
             lower: limits.lower,
             upper: limits.upper,
-            capability: capability(&values, limits),
+            capability: lot_capability(&values, limits, subgroups),
         })
     };
-    let rates: Vec<f64> = tests.iter().filter_map(|t| t.metrics.rate_nmm_per_deg).collect();
-    if !rates.is_empty() {
-        let limits = spec.characteristics.rate_nmm_per_deg.as_ref().map(|r| r.limits()).unwrap_or_default();
-        push("rate".into(), "N·mm/°", limits, rates);
-    }
+    let rate_limits = spec.characteristics.rate_nmm_per_deg.as_ref().map(|r| r.limits()).unwrap_or_default();
+    push("rate".into(), "N·mm/°", rate_limits, &|t| t.metrics.rate_nmm_per_deg);
     if let Some(free) = &spec.characteristics.free_angle_deg {
-        let values = tests.iter().filter_map(|t| t.metrics.free_angle_deg).collect();
-        push("free_angle".into(), "°", free.limits(), values);
+        push("free_angle".into(), "°", free.limits(), &|t| t.metrics.free_angle_deg);
     }
     for torque in &spec.characteristics.torque_at {
         let key = angle_key(torque.angle_deg);
-        let values = tests.iter().filter_map(|t| t.metrics.torque_nmm_at.get(&key).copied()).collect();
-        push(torque_label(torque.angle_deg), "N·mm", torque.limits(), values);
+        push(torque_label(torque.angle_deg), "N·mm", torque.limits(), &|t| {
+            t.metrics.torque_nmm_at.get(&key).copied()
+        });
     }
     statistics
 }

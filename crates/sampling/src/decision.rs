@@ -49,6 +49,21 @@ pub enum BeyondSample {
     CountAll,
 }
 
+/// What a variables (k-method) plan does when the lot's values fail the normality test
+/// its acceptance constant rests on (plant config `variables_non_normal`).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum NonNormalRule {
+    /// Hold the lot for a person's decision.
+    #[default]
+    Hold,
+    /// Leave the variables plan out and let the attribute plans decide (held when there are none).
+    Attributes,
+}
+
+/// Below this Anderson–Darling p-value the k-method's normal model is taken as rejected.
+pub const NORMALITY_REJECT_P: f64 = 0.05;
+
 /// Where the lot's part stands under the switching rules when the lot comes up.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LotStanding {
@@ -75,6 +90,11 @@ pub struct LotInput<'a> {
     pub tests: &'a [&'a TestRecord],
     /// What to do with tests beyond the sample size.
     pub beyond_sample: BeyondSample,
+    /// Anderson–Darling p-value of the values the variables plan judges (from `stats`),
+    /// when the part has a variables plan and the test could be run.
+    pub variables_normality_p: Option<f64>,
+    /// What the variables plan does on values that fail normality.
+    pub non_normal: NonNormalRule,
 }
 
 /// The c = 0 plan: the normal table's sample size for the letter at every severity (the
@@ -334,11 +354,44 @@ pub fn decide_lot<'s>(input: &LotInput<'_>, scheme: impl FnOnce(&str) -> Option<
         });
     }
 
-    let variables = sampling.variables.as_ref().map(|vp| {
+    let variables = sampling.variables.as_ref().and_then(|vp| {
         let (outcome, text, decision) = decide_variables(vp, spec, &valid, input.lot_size);
-        grounds.push(Ground::leading(GroundTopic::Variables, outcome, text));
-        decision
+        let rejected_p = input.variables_normality_p.filter(|p| *p < NORMALITY_REJECT_P);
+        let Some(p) = rejected_p.filter(|_| outcome != Disposition::Hold) else {
+            grounds.push(Ground::leading(GroundTopic::Variables, outcome, text));
+            return Some(decision);
+        };
+        let caution = format!(
+            "caution: the k-method assumes normally distributed values, but the {} values fail the \
+             Anderson–Darling test (p {p:.3} < {NORMALITY_REJECT_P})",
+            vp.characteristic
+        );
+        match input.non_normal {
+            NonNormalRule::Hold => {
+                grounds.push(Ground::note(GroundTopic::Variables, text));
+                grounds.push(Ground::leading(
+                    GroundTopic::Variables,
+                    Disposition::Hold,
+                    format!("variables on {}: hold, {caution}; the plant's rule holds such lots for a person's decision", vp.characteristic),
+                ));
+                Some(VariablesDecision { outcome: Disposition::Hold, ..decision })
+            }
+            NonNormalRule::Attributes => {
+                grounds.push(Ground::note(
+                    GroundTopic::Variables,
+                    format!("variables on {}: not used, {caution}; the plant's rule lets the attribute plans decide", vp.characteristic),
+                ));
+                None
+            }
+        }
     });
+    if sampling.variables.is_some() && variables.is_none() && classes.is_empty() {
+        grounds.push(Ground::leading(
+            GroundTopic::Evidence,
+            Disposition::Hold,
+            "no attribute plan is left to decide the lot once its variables plan is set aside",
+        ));
+    }
     if classes.is_empty() && variables.is_none() {
         grounds.push(Ground::leading(
             GroundTopic::Evidence,
@@ -595,7 +648,16 @@ mod tests {
         beyond_sample: BeyondSample,
     ) -> LotDecision {
         let refs: Vec<&TestRecord> = tests.iter().collect();
-        let input = LotInput { lot: "L1", lot_size: 1000, spec, standing, tests: &refs, beyond_sample };
+        let input = LotInput {
+            lot: "L1",
+            lot_size: 1000,
+            spec,
+            standing,
+            tests: &refs,
+            beyond_sample,
+            variables_normality_p: None,
+            non_normal: NonNormalRule::Hold,
+        };
         let scheme = scheme();
         decide_lot(&input, |name| (name == scheme.name).then_some(&scheme))
     }
@@ -786,18 +848,55 @@ mod tests {
     #[test]
     fn variables_plan_accepts_rejects_and_holds() {
         // The plan is n 41, k ≈ 1.89 (see the design tests); a tight spread accepts.
-        let d = decide(&variables_spec(), &with_rates(&spread(41, 4.0, 0.1)), None);
+        // The exact double-limit design (see the design tests) asks for more parts than
+        // Wallis's 41; the lot here gives 100, judged on the first n by start time.
+        let d = decide(&variables_spec(), &with_rates(&spread(100, 4.0, 0.1)), None);
         assert_eq!(d.disposition, Disposition::Accept, "{:?}", texts(&d));
-        assert_eq!(d.variables.as_ref().unwrap().sample_size, 41);
+        let n = d.variables.as_ref().unwrap().sample_size;
+        assert!(n > 41 && n <= 100, "{n}");
         assert_eq!(d.deciding_ground().unwrap().topic, GroundTopic::Variables);
         // A mean close to the upper limit rejects although every value is inside it.
-        let values = spread(41, 4.215, 0.1);
+        // The first 84 by start time sit evenly just under the upper limit, so their mean is
+        // within k·s of it; the later 16 are not counted.
+        let mut values = spread(84, 4.269, 0.05);
+        values.extend([4.0; 16]);
         assert!(values.iter().all(|v| *v < 4.32));
         let d = decide(&variables_spec(), &with_rates(&values), None);
         assert_eq!(d.disposition, Disposition::Reject, "{:?}", texts(&d));
         let d = decide(&variables_spec(), &with_rates(&spread(20, 4.0, 0.1)), None);
         assert_eq!(d.disposition, Disposition::Hold);
-        assert!(d.deciding_ground().unwrap().text.contains("too few measured values: 20 of 41"));
+        assert!(d.deciding_ground().unwrap().text.contains(&format!("too few measured values: 20 of {n}")));
+    }
+
+    #[test]
+    fn non_normal_values_hold_or_hand_over_to_the_attribute_plans() {
+        let tests = with_rates(&spread(100, 4.0, 0.1));
+        let refs: Vec<&TestRecord> = tests.iter().collect();
+        let scheme = scheme();
+        let spec = variables_spec();
+        let decide_with_rule = |non_normal, p| {
+            let input = LotInput {
+                lot: "L1",
+                lot_size: 1000,
+                spec: &spec,
+                standing: None,
+                tests: &refs,
+                beyond_sample: BeyondSample::FirstN,
+                variables_normality_p: p,
+                non_normal,
+            };
+            decide_lot(&input, |name| (name == scheme.name).then_some(&scheme))
+        };
+        // Normality not rejected: the plan decides as usual.
+        assert_eq!(decide_with_rule(NonNormalRule::Hold, Some(0.4)).disposition, Disposition::Accept);
+        let held = decide_with_rule(NonNormalRule::Hold, Some(0.01));
+        assert_eq!(held.disposition, Disposition::Hold);
+        assert!(held.deciding_ground().unwrap().text.contains("caution: the k-method assumes"));
+        // Handed over, with no attribute plan left: held, saying so.
+        let handed = decide_with_rule(NonNormalRule::Attributes, Some(0.01));
+        assert_eq!(handed.disposition, Disposition::Hold, "{:?}", texts(&handed));
+        assert!(handed.variables.is_none());
+        assert!(texts(&handed).iter().any(|t| t.contains("no attribute plan is left")));
     }
 
     #[test]

@@ -24,17 +24,17 @@ pub mod switching;
 
 pub use decision::{
     characteristic_limits, characteristic_value, class_plans, decide_lot, zero_acceptance_plan, BeyondSample,
-    LotInput, LotStanding,
+    LotInput, LotStanding, NonNormalRule, NORMALITY_REJECT_P,
 };
 pub use design::{
     design_attribute, design_variables, variables_verdict, AttributeDesign, LimitKind, VariablesDesign,
-    VariablesVerdict,
+    VariablesVerdict, WallisPlan,
 };
-pub use oc::{attribute_oc, variables_oc, OcPoint};
+pub use oc::{attribute_oc, noncentral_t_cdf, noncentral_t_sf, variables_oc, OcPoint};
 pub use scheme::{
     shipped_mil_std_105e_text, AttributePlan, InspectionLevel, Scheme, Severity, SwitchingRules,
 };
-pub use switching::{Conditions, LotOutcome, SwitchingState, Transition};
+pub use switching::{Conditions, LimitCell, LimitNumbers, LotOutcome, SwitchingState, Transition};
 
 use twistlot_model::DocumentError;
 

@@ -4,6 +4,7 @@
 //! than in code so a plant can ship its own scheme in the same shape; this module only
 //! reads, validates and looks them up.
 
+use crate::switching::LimitNumbers;
 use crate::SamplingError;
 use serde::de::{MapAccess, Visitor};
 use serde::{Deserialize, Deserializer, Serialize};
@@ -157,7 +158,6 @@ impl MasterTable {
 
 /// Switching parameters of the scheme (MIL-STD-105E §8.3).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields)]
 pub struct SwitchingRules {
     /// Normal → tightened when this many lots are rejected …
     pub tightened_after_rejected: u32,
@@ -167,10 +167,22 @@ pub struct SwitchingRules {
     pub normal_after_accepted: u32,
     /// Normal → reduced after this many consecutive accepted lots (plus the other conditions).
     pub reduced_after_accepted: u32,
-    /// Probability defining the limit number (see the scheme file).
-    pub reduced_limit_probability: f64,
+    /// Limit numbers for the switch to reduced (MIL-STD-105E Table VIII).
+    pub limit_numbers: LimitNumbers,
     /// Discontinue when this many lots in a row of tightened inspection were not accepted.
     pub discontinue_after_rejected_on_tightened: u32,
+}
+
+/// The switching section as written in the scheme file.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawSwitching {
+    tightened_after_rejected: u32,
+    tightened_within_lots: u32,
+    normal_after_accepted: u32,
+    reduced_after_accepted: u32,
+    limit_numbers: Ordered<String>,
+    discontinue_after_rejected_on_tightened: u32,
 }
 
 /// A loaded, validated sampling scheme.
@@ -233,7 +245,7 @@ struct RawScheme {
     levels: Vec<String>,
     code_letters: Vec<RawLetterRow>,
     tables: RawTables,
-    switching: SwitchingRules,
+    switching: RawSwitching,
 }
 
 #[derive(Deserialize)]
@@ -395,12 +407,16 @@ impl Scheme {
                     .into(),
             ));
         }
-        if !(s.reduced_limit_probability > 0.0 && s.reduced_limit_probability < 1.0) {
-            return Err(fail(
-                "switching.reduced_limit_probability",
-                "must lie strictly between 0 and 1".into(),
-            ));
-        }
+        let limit_numbers = LimitNumbers::from_rows(&aqls, &s.limit_numbers.0)
+            .map_err(|message| fail("switching.limit_numbers", message))?;
+        let switching = SwitchingRules {
+            tightened_after_rejected: s.tightened_after_rejected,
+            tightened_within_lots: s.tightened_within_lots,
+            normal_after_accepted: s.normal_after_accepted,
+            reduced_after_accepted: s.reduced_after_accepted,
+            limit_numbers,
+            discontinue_after_rejected_on_tightened: s.discontinue_after_rejected_on_tightened,
+        };
 
         Ok(Scheme {
             name: raw.name,
@@ -412,7 +428,7 @@ impl Scheme {
             normal,
             tightened,
             reduced,
-            switching: raw.switching,
+            switching,
         })
     }
 
@@ -745,6 +761,16 @@ mod tests {
         );
         let err = load_err(&broken);
         assert!(err.contains("code_letters") && err.contains("6 letters"), "{err}");
+
+        // Table VIII: a limit number that falls along its row is refused where the file says.
+        let broken = text.replacen(
+            "0   0   2   4   8  14  22  40  68 115 181\"",
+            "0   0   2   4   8  14  22  40  68 115  18\"",
+            1,
+        );
+        assert_ne!(broken, text);
+        let err = load_err(&broken);
+        assert!(err.contains("switching.limit_numbers") && err.contains("must not fall"), "{err}");
 
         let broken = text.replacen("kind: sampling-scheme", "kind: sink", 1);
         assert!(load_err(&broken).contains("not a sampling scheme"));

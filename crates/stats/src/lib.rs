@@ -25,11 +25,15 @@ pub mod drift;
 pub mod fit;
 pub mod judge;
 pub mod metrics;
+pub mod nonnormal;
 pub mod run_rules;
 mod text;
 pub mod wire;
 
-pub use capability::{anderson_darling, capability, Capability, CapabilityMethod, Normality};
+pub use capability::{
+    anderson_darling, capability, lot_capability, Absent, AbsentReason, Capability, CapabilityMethod,
+    Normality, OrderedValue, Subgrouping, WithinSigma,
+};
 pub use checks::{CheckError, CheckSet};
 pub use control::{
     a3, b3, b4, c4, cusum, cusum_of_means, ewma, ewma_of_means, xbar_s_chart, ChartKind, ControlError,

@@ -481,3 +481,173 @@ pub fn run_shift(
     };
     decide_and_push(&run, collected, duplicates, &mut sinks)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::open::OpenOptions;
+    use crate::sink::{LotEvent, ShiftSink, SinkError};
+    use std::cell::RefCell;
+    use std::rc::Rc;
+    use twistlot_model::{CurveMetrics, Disposition, Finding, TestStatus};
+
+    fn test(file: &str, lot: &str, verdict: Verdict, rate: f64) -> TestRecord {
+        TestRecord {
+            test_id: file.into(),
+            file: file.into(),
+            content_hash: file.into(),
+            serial: Some(file.trim_end_matches(".csv").into()),
+            part: Some("TS-2210".into()),
+            lot: Some(lot.into()),
+            rig: Some("RIG-N".into()),
+            operator: None,
+            started: Some("2026-12-01T10:00".into()),
+            rig_format: "native".into(),
+            spec_file: None,
+            spec_revision: None,
+            metrics: CurveMetrics { rate_nmm_per_deg: Some(rate), ..CurveMetrics::default() },
+            verdict: Some(verdict),
+            findings: match verdict {
+                Verdict::Pass => Vec::new(),
+                other => vec![Finding {
+                    characteristic: "rate".into(),
+                    class: twistlot_model::CharacteristicClass::Major,
+                    value: Some(rate),
+                    lower: None,
+                    upper: None,
+                    verdict: other,
+                    message: "out".into(),
+                }],
+            },
+            status: TestStatus::Counted,
+        }
+    }
+
+    fn preview(points: usize) -> CurvePreview {
+        CurvePreview { angle_deg: vec![0.0; points], torque_nmm: vec![0.0; points] }
+    }
+
+    #[test]
+    fn the_curve_keeper_keeps_flagged_curves_first_and_a_fixed_number() {
+        let mut keeper = CurveKeeper::new(3);
+        let mut tests = Vec::new();
+        for (i, verdict) in
+            [Verdict::Pass, Verdict::Pass, Verdict::Pass, Verdict::Fail, Verdict::Pass, Verdict::Invalid]
+                .iter()
+                .enumerate()
+        {
+            let t = test(&format!("t{i}.csv"), "L", *verdict, 29.0);
+            keeper.offer(i, &t, preview(i + 1));
+            tests.push(t);
+        }
+        // Another lot's curves are kept apart.
+        let other = test("o.csv", "M", Verdict::Pass, 29.0);
+        keeper.offer(6, &other, preview(1));
+        tests.push(other);
+        let (kept, seen) = keeper.take("L", &tests);
+        assert_eq!(seen, 6);
+        let labels: Vec<(&str, bool)> = kept.iter().map(|(l, f, _)| (l.as_str(), *f)).collect();
+        assert_eq!(labels, [("t3", true), ("t5", true), ("t0", false)]);
+        // A curve whose test stopped counting (a superseded retest) is not drawn.
+        let mut keeper = CurveKeeper::new(3);
+        keeper.offer(0, &tests[0], preview(1));
+        tests[0].status = TestStatus::Superseded { by: "t9.csv".into() };
+        assert!(keeper.take("L", &tests).0.is_empty());
+    }
+
+    /// Records every event it is given, in order.
+    struct Recorder(Rc<RefCell<Vec<String>>>);
+
+    impl ShiftSink for Recorder {
+        fn name(&self) -> String {
+            "recorder".into()
+        }
+        fn start(&mut self, shift: &ShiftStart<'_>) -> Result<(), SinkError> {
+            self.0.borrow_mut().push(format!("start {}", shift.shift));
+            Ok(())
+        }
+        fn test(&mut self, test: &TestRecord) -> Result<(), SinkError> {
+            self.0.borrow_mut().push(format!("test {} {}", test.file, test.status.as_str()));
+            Ok(())
+        }
+        fn lot(&mut self, lot: &LotEvent<'_>) -> Result<(), SinkError> {
+            let record = lot.record;
+            self.0.borrow_mut().push(format!(
+                "lot {} {} tested {} of {} tests",
+                record.lot,
+                record.disposition,
+                record.tested,
+                lot.tests.len()
+            ));
+            Ok(())
+        }
+        fn end(&mut self, shift: &ShiftRecord) -> Result<(), SinkError> {
+            self.0.borrow_mut().push(format!("end {} lots", shift.lots.len()));
+            Ok(())
+        }
+    }
+
+    fn plant() -> (tempfile::TempDir, OpenPlant) {
+        let dir = tempfile::tempdir().unwrap();
+        let parts = dir.path().join("parts");
+        std::fs::create_dir_all(&parts).unwrap();
+        let spec =
+            std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../sample_lots/parts/TS-2210.yaml");
+        let spec = std::env::var_os("CARGO_MANIFEST_DIR")
+            .map(|d| std::path::PathBuf::from(d).join("../../sample_lots/parts/TS-2210.yaml"))
+            .unwrap_or(spec);
+        std::fs::copy(spec, parts.join("TS-2210.yaml")).unwrap();
+        std::fs::write(dir.path().join("plant.yaml"), "plant: unit test plant\nparts: parts\n").unwrap();
+        let options =
+            OpenOptions { plant_file: Some(dir.path().join("plant.yaml")), ..OpenOptions::default() };
+        let plant = OpenPlant::open(&options).unwrap();
+        (dir, plant)
+    }
+
+    #[test]
+    fn sinks_get_every_test_in_file_order_then_each_lot_then_the_end() {
+        let (dir, plant) = plant();
+        let events = Rc::new(RefCell::new(Vec::new()));
+        let mut sinks = SinkSet::default();
+        sinks.push(Box::new(Recorder(events.clone())));
+        let mut tests = vec![
+            test("a.csv", "L-1", Verdict::Pass, 29.0),
+            test("b.csv", "L-1", Verdict::Pass, 29.1),
+            test("c.csv", "L-9", Verdict::Pass, 29.2),
+        ];
+        tests[1].content_hash = tests[0].content_hash.clone();
+        let mut collected = CollectedTests { files_total: 3, ..CollectedTests::default() };
+        collected.tests = tests;
+        let duplicates = retests::settle(&mut collected.tests);
+        let lots = LotList::from_yaml("lots.yaml", "lots:\n  - { lot: L-1, part: TS-2210, quantity: 500 }\n")
+            .unwrap()
+            .lots;
+        let run = ShiftRun {
+            plant: &plant,
+            shift: "S",
+            lots: &lots,
+            record: None,
+            generated_at: "now",
+            out_dir: dir.path(),
+        };
+        let summary = decide_and_push(&run, collected, duplicates, &mut sinks).unwrap();
+        assert_eq!(
+            *events.borrow(),
+            [
+                "start S",
+                "test a.csv counted",
+                "test b.csv duplicate",
+                "test c.csv counted",
+                "lot L-1 hold tested 1 of 2 tests",
+                "end 1 lots",
+            ]
+        );
+        let lot = &summary.lots[0];
+        assert_eq!(lot.disposition, Disposition::Hold);
+        assert!(lot.deciding_ground().unwrap().contains("too few valid tests"), "{:?}", lot.grounds);
+        assert_eq!(lot.duplicates.len(), 1);
+        assert_eq!(summary.unlisted_tests, ["c.csv (lot `L-9` is not on the shift's lot list)"]);
+        // With no history folder the lot is judged on normal inspection, and says why.
+        assert!(lot.grounds[0].contains("no history folder"), "{:?}", lot.grounds);
+    }
+}

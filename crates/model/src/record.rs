@@ -1,0 +1,725 @@
+//! Result records: what a shift produces about each test and each lot, typed once.
+//!
+//! These are the records every output reads: the lot reports, `summary.json`,
+//! `tests.csv`, the switching record, exec sinks and the history store. The layer-1
+//! crates fill them (`stats` the metrics, `sampling` the lot decision); nothing
+//! above copies them into look-alike structs.
+
+use crate::spec::{CharacteristicClass, Finding, Verdict};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use std::fmt;
+use std::str::FromStr;
+
+/// A word that is not one of an enum's labels.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error("`{value}` is not a {what} (use {expected})")]
+pub struct UnknownLabel {
+    /// What was being parsed, e.g. `severity`.
+    pub what: &'static str,
+    /// The text given.
+    pub value: String,
+    /// The accepted labels, for the message.
+    pub expected: &'static str,
+}
+
+/// What is decided for a lot. Ordered by severity of consequence: a reject outranks a
+/// hold, which outranks an accept, so the lot's disposition is the largest of its parts'.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Disposition {
+    /// The lot meets its sampling plan (release is still a person's decision).
+    Accept,
+    /// No decision yet: missing or invalid tests, an unverified rig, a broken spec…
+    Hold,
+    /// The lot fails its sampling plan.
+    Reject,
+}
+
+impl Disposition {
+    /// Every disposition, in order.
+    pub const ALL: [Disposition; 3] = [Disposition::Accept, Disposition::Hold, Disposition::Reject];
+
+    /// The lower-case label.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Disposition::Accept => "accept",
+            Disposition::Hold => "hold",
+            Disposition::Reject => "reject",
+        }
+    }
+}
+
+impl fmt::Display for Disposition {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// Inspection severity under a scheme's switching rules.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Severity {
+    /// Normal inspection.
+    Normal,
+    /// Tightened inspection.
+    Tightened,
+    /// Reduced inspection.
+    Reduced,
+}
+
+impl Severity {
+    /// Every severity.
+    pub const ALL: [Severity; 3] = [Severity::Normal, Severity::Tightened, Severity::Reduced];
+
+    /// The lower-case label.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Severity::Normal => "normal",
+            Severity::Tightened => "tightened",
+            Severity::Reduced => "reduced",
+        }
+    }
+}
+
+impl fmt::Display for Severity {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+impl FromStr for Severity {
+    type Err = UnknownLabel;
+    fn from_str(text: &str) -> Result<Self, UnknownLabel> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "normal" => Ok(Severity::Normal),
+            "tightened" => Ok(Severity::Tightened),
+            "reduced" => Ok(Severity::Reduced),
+            _ => Err(UnknownLabel {
+                what: "severity",
+                value: text.to_string(),
+                expected: "normal, tightened or reduced",
+            }),
+        }
+    }
+}
+
+/// Where a part stands for its next lot: a severity, or acceptance discontinued.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum InspectionState {
+    /// Normal inspection.
+    Normal,
+    /// Tightened inspection.
+    Tightened,
+    /// Reduced inspection.
+    Reduced,
+    /// Acceptance discontinued until corrective action is recorded.
+    Discontinued,
+}
+
+impl InspectionState {
+    /// The state of a part on `severity`, or discontinued.
+    pub fn of(severity: Severity, discontinued: bool) -> InspectionState {
+        match (discontinued, severity) {
+            (true, _) => InspectionState::Discontinued,
+            (false, Severity::Normal) => InspectionState::Normal,
+            (false, Severity::Tightened) => InspectionState::Tightened,
+            (false, Severity::Reduced) => InspectionState::Reduced,
+        }
+    }
+
+    /// The lower-case label.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            InspectionState::Normal => "normal",
+            InspectionState::Tightened => "tightened",
+            InspectionState::Reduced => "reduced",
+            InspectionState::Discontinued => "discontinued",
+        }
+    }
+}
+
+impl fmt::Display for InspectionState {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// A single attribute sampling plan, as picked from a scheme's tables.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct AttributePlan {
+    /// Code letter of the row the plan was taken from (after following arrows).
+    pub code_letter: String,
+    /// Units to inspect (the lot size when `hundred_percent`).
+    pub sample_size: u64,
+    /// Acceptance number Ac: accept with this many defectives or fewer.
+    pub accept: u64,
+    /// Rejection number Re: reject with this many or more. Under reduced inspection
+    /// Re may exceed Ac + 1; a count between them accepts but reinstates normal.
+    pub reject: u64,
+    /// Severity whose table the plan came from.
+    pub severity: Severity,
+    /// True when the table's sample reached the lot size, so every unit is inspected.
+    pub hundred_percent: bool,
+}
+
+/// Everything measured on one test's curve.
+///
+/// `None` means "not measured"; the reason is in [`CurveMetrics::rate_unavailable`]
+/// (for the rate and what derives from it) or in [`CurveMetrics::notes`]. Keys of the
+/// angle maps are angles written as `45` or `22.5`.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+pub struct CurveMetrics {
+    /// Cycle the metrics come from (from 1).
+    pub evaluated_cycle: u32,
+    /// Number of cycles in the curve.
+    pub cycles: u32,
+    /// Spring rate: least-squares slope of torque on angle in the window, N·mm/°.
+    pub rate_nmm_per_deg: Option<f64>,
+    /// R² of that fit.
+    pub rate_r2: Option<f64>,
+    /// Standard error of the rate, N·mm/°.
+    pub rate_stderr_nmm_per_deg: Option<f64>,
+    /// Intercept of the fit at 0°, N·mm.
+    pub intercept_nmm: Option<f64>,
+    /// Free (zero-torque) angle α0 = −intercept / rate, degrees.
+    pub free_angle_deg: Option<f64>,
+    /// Why the rate (and intercept, free angle, linearity) is missing, in words.
+    pub rate_unavailable: Option<String>,
+    /// Torque on the loading stroke at requested angles, N·mm.
+    pub torque_nmm_at: BTreeMap<String, f64>,
+    /// (load − unload) / load torque at requested angles, %.
+    pub hysteresis_pct_at: BTreeMap<String, f64>,
+    /// (loading area − unloading area) / loading area over the common angle range, %.
+    pub energy_loss_pct: Option<f64>,
+    /// Largest |residual| from the fitted line in the window, % of the maximum torque.
+    pub linearity_pct: Option<f64>,
+    /// Largest torque on the evaluated loading stroke, N·mm.
+    pub max_torque_nmm: f64,
+    /// Largest angle reached on the evaluated loading stroke, degrees.
+    pub max_angle_deg: f64,
+    /// Secant rate between [`CurveMetrics::secant_deg`], N·mm/°.
+    pub secant_rate_nmm_per_deg: Option<f64>,
+    /// Angles the secant rate was asked between, degrees.
+    pub secant_deg: Option<[f64; 2]>,
+    /// Shift of α0 from the first to the last cycle (positive: moved towards the load), degrees.
+    pub set_deg: Option<f64>,
+    /// Tested deflection `[start, end]` the window is a fraction of, degrees.
+    pub deflection_deg: [f64; 2],
+    /// Evaluation window actually used, `[lo, hi]`, degrees.
+    pub window_deg: [f64; 2],
+    /// Loading points inside the window.
+    pub points_in_window: usize,
+    /// Plain-word notes on anything asked for that could not be measured.
+    pub notes: Vec<String>,
+}
+
+/// The key of an angle in [`CurveMetrics`]' angle maps: `45.0` → `"45"`, `22.5` → `"22.5"`.
+pub fn angle_key(angle_deg: f64) -> String {
+    format!("{angle_deg}")
+}
+
+/// A start time as rigs write it, made comparable: `YYYY-MM-DDTHH:MM:SS.fff`.
+///
+/// Read forms: ISO 8601 (`2026-12-01T14:03`, `2026-12-01 14:03:07.5`, an offset or `Z`
+/// after the time is ignored, so rigs of one plant must share a clock) and day-first
+/// dotted dates (`01.12.2026 14:03`). Anything else gives `None`: such tests sort after
+/// the ones with a readable time, never by a guess.
+pub fn start_key(started: &str) -> Option<String> {
+    let text = started.trim();
+    let (date, time) = text.split_once(['T', ' ']).unwrap_or((text, "00:00"));
+    let (year, month, day) = if let Some((y, rest)) = date.split_once('-') {
+        let (m, d) = rest.split_once('-')?;
+        (y, m, d)
+    } else {
+        let (d, rest) = date.split_once('.')?;
+        let (m, y) = rest.split_once('.')?;
+        (y, m, d)
+    };
+    let number = |s: &str, digits: std::ops::RangeInclusive<usize>, max: u32| -> Option<u32> {
+        let ok = digits.contains(&s.len()) && s.bytes().all(|b| b.is_ascii_digit());
+        ok.then(|| s.parse::<u32>().ok()).flatten().filter(|v| *v <= max)
+    };
+    let year = number(year, 4..=4, 9999)?;
+    let month = number(month, 1..=2, 12).filter(|m| *m >= 1)?;
+    let day = number(day, 1..=2, 31).filter(|d| *d >= 1)?;
+    let time = time.trim().trim_end_matches('Z');
+    let time = time.split(['+']).next().unwrap_or(time);
+    let mut parts = time.splitn(3, ':');
+    let hour = number(parts.next()?, 1..=2, 23)?;
+    let minute = number(parts.next()?, 2..=2, 59)?;
+    let (second, fraction) = match parts.next() {
+        None => (0, String::new()),
+        Some(sec) => {
+            let (whole, frac) = sec.split_once(['.', ',']).unwrap_or((sec, ""));
+            let frac: String = frac.chars().take_while(|c| c.is_ascii_digit()).collect();
+            (number(whole, 2..=2, 60)?, frac)
+        }
+    };
+    Some(format!("{year:04}-{month:02}-{day:02}T{hour:02}:{minute:02}:{second:02}.{fraction:0<9}"))
+}
+
+/// The order tests are drawn in when it matters (which retest counts, which n tests a
+/// plan counts): by start time, then serial, then file; tests without a readable start
+/// time come after those with one. File names never decide before times and serials.
+pub fn test_order(a: &TestRecord, b: &TestRecord) -> std::cmp::Ordering {
+    let key = |t: &TestRecord| t.started.as_deref().and_then(start_key);
+    let (ka, kb) = (key(a), key(b));
+    let by_time = match (&ka, &kb) {
+        (Some(x), Some(y)) => x.cmp(y),
+        (Some(_), None) => std::cmp::Ordering::Less,
+        (None, Some(_)) => std::cmp::Ordering::Greater,
+        (None, None) => std::cmp::Ordering::Equal,
+    };
+    by_time.then_with(|| a.serial.cmp(&b.serial)).then_with(|| a.file.cmp(&b.file))
+}
+
+/// Whether a test counts toward its lot's sample.
+#[derive(Debug, Clone, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(tag = "status", rename_all = "lowercase")]
+pub enum TestStatus {
+    /// The test counts.
+    #[default]
+    Counted,
+    /// The file's bytes are identical to an earlier file's: counted once, under that file.
+    Duplicate {
+        /// The file that is counted.
+        same_as: String,
+    },
+    /// The same serial was tested again later: the later test counts.
+    Superseded {
+        /// The file of the test that counts instead.
+        by: String,
+    },
+}
+
+impl TestStatus {
+    /// True for a test that counts toward its lot.
+    pub fn is_counted(&self) -> bool {
+        matches!(self, TestStatus::Counted)
+    }
+
+    /// The lower-case label.
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            TestStatus::Counted => "counted",
+            TestStatus::Duplicate { .. } => "duplicate",
+            TestStatus::Superseded { .. } => "superseded",
+        }
+    }
+}
+
+/// One evaluated test: where it came from, what was measured, how it was judged.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TestRecord {
+    /// Test identifier (serial and the start of the content hash).
+    pub test_id: String,
+    /// The export file, as found.
+    pub file: String,
+    /// BLAKE3 hash of the export's bytes, hex.
+    pub content_hash: String,
+    /// Serial number of the tested part.
+    pub serial: Option<String>,
+    /// Part number the export names.
+    pub part: Option<String>,
+    /// Lot the export names.
+    pub lot: Option<String>,
+    /// Rig that ran the test.
+    pub rig: Option<String>,
+    /// Operator.
+    pub operator: Option<String>,
+    /// Start time as the rig wrote it.
+    pub started: Option<String>,
+    /// Rig format that read the file.
+    pub rig_format: String,
+    /// Spec file judged against, when there was one.
+    pub spec_file: Option<String>,
+    /// Drawing revision of that spec.
+    pub spec_revision: Option<String>,
+    /// The curve metrics.
+    #[serde(flatten)]
+    pub metrics: CurveMetrics,
+    /// Verdict, absent when there was no spec to judge against.
+    pub verdict: Option<Verdict>,
+    /// Findings per characteristic.
+    pub findings: Vec<Finding>,
+    /// Whether the test counts toward its lot (duplicates and superseded retests do not).
+    #[serde(flatten)]
+    pub status: TestStatus,
+}
+
+impl TestRecord {
+    /// The verdict used for counting: a test without one cannot be judged, so it is invalid.
+    pub fn verdict_or_invalid(&self) -> Verdict {
+        self.verdict.unwrap_or(Verdict::Invalid)
+    }
+
+    /// The serial, or the file when the export gave none.
+    pub fn label(&self) -> &str {
+        self.serial.as_deref().unwrap_or(&self.file)
+    }
+}
+
+/// What a ground of a lot decision is about.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case", tag = "topic", content = "class")]
+pub enum GroundTopic {
+    /// The part's switching standing (which severity applies and why).
+    Switching,
+    /// The evidence as a whole: missing spec, missing tests, wrong part numbers.
+    Evidence,
+    /// One characteristic class's attribute plan.
+    Class(CharacteristicClass),
+    /// The variables (k-method) plan.
+    Variables,
+}
+
+/// One reason behind a lot's disposition.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Ground {
+    /// What the ground is about.
+    #[serde(flatten)]
+    pub topic: GroundTopic,
+    /// The disposition this ground alone leads to, when it leads to one.
+    pub outcome: Option<Disposition>,
+    /// The ground in words.
+    pub text: String,
+}
+
+impl Ground {
+    /// A ground that leads to `outcome`.
+    pub fn leading(topic: GroundTopic, outcome: Disposition, text: impl Into<String>) -> Ground {
+        Ground { topic, outcome: Some(outcome), text: text.into() }
+    }
+
+    /// A ground that informs but decides nothing.
+    pub fn note(topic: GroundTopic, text: impl Into<String>) -> Ground {
+        Ground { topic, outcome: None, text: text.into() }
+    }
+}
+
+/// One characteristic class's attribute plan and what the lot showed under it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ClassDecision {
+    /// The class.
+    pub class: CharacteristicClass,
+    /// The plan (zero-acceptance classes carry Ac 0 / Re 1).
+    pub plan: AttributePlan,
+    /// AQL of the plan, percent (absent for zero-acceptance classes).
+    pub aql_pct: Option<f64>,
+    /// Valid tests counted under the plan.
+    pub tested: u64,
+    /// Defectives among them.
+    pub defectives: u64,
+    /// Defectives among valid tests beyond those counted.
+    pub defectives_beyond_sample: u64,
+    /// Invalid tests in the lot.
+    pub invalid: u64,
+    /// This class's outcome.
+    pub outcome: Disposition,
+}
+
+/// The variables (k-method) plan and what the lot showed under it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct VariablesDecision {
+    /// Characteristic judged, e.g. `rate`.
+    pub characteristic: String,
+    /// Designed sample size.
+    pub sample_size: u64,
+    /// Acceptability constant, when the plan could be designed.
+    pub k: Option<f64>,
+    /// Sample mean of the values used.
+    pub mean: Option<f64>,
+    /// σ (known) or s (estimated) of the values used.
+    pub spread: Option<f64>,
+    /// True when σ is the plant's known process σ, false when s is estimated.
+    pub sigma_known: bool,
+    /// (U − mean)/spread, when there is an upper limit.
+    pub q_upper: Option<f64>,
+    /// (mean − L)/spread, when there is a lower limit.
+    pub q_lower: Option<f64>,
+    /// Outcome of the plan.
+    pub outcome: Disposition,
+}
+
+/// What a decided lot contributes to its part's switching history.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SwitchingCount {
+    /// Severity the lot was inspected under.
+    pub severity: Severity,
+    /// Units in the sample of the plan whose count feeds the switching rules.
+    pub sample_size: u64,
+    /// Defectives found in that sample.
+    pub defectives: u64,
+    /// AQL of that plan, percent (0 for zero-acceptance and variables plans).
+    pub aql_pct: f64,
+    /// Accepted on reduced inspection with defectives between Ac and Re (back to normal).
+    pub between_ac_and_re: bool,
+}
+
+/// A lot's decision with its grounds, as the sampling crate makes it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct LotDecision {
+    /// The disposition.
+    pub disposition: Disposition,
+    /// Severity the lot was inspected under (absent when it could not be sampled at all).
+    pub severity: Option<Severity>,
+    /// Every ground, in the order they were found.
+    pub grounds: Vec<Ground>,
+    /// Index in `grounds` of the one that decided the disposition.
+    pub deciding: Option<usize>,
+    /// Per-class plans and counts.
+    pub classes: Vec<ClassDecision>,
+    /// The variables plan's result, when the part has one.
+    pub variables: Option<VariablesDecision>,
+    /// The class whose plan is shown as "the plan" (the one asking for the most parts).
+    pub shown_class: Option<CharacteristicClass>,
+    /// What the lot feeds into its part's switching history (absent for held lots).
+    pub switching: Option<SwitchingCount>,
+}
+
+impl LotDecision {
+    /// A held lot with one ground.
+    pub fn hold(topic: GroundTopic, text: impl Into<String>, severity: Option<Severity>) -> LotDecision {
+        LotDecision {
+            disposition: Disposition::Hold,
+            severity,
+            grounds: vec![Ground::leading(topic, Disposition::Hold, text)],
+            deciding: Some(0),
+            classes: Vec::new(),
+            variables: None,
+            shown_class: None,
+            switching: None,
+        }
+    }
+
+    /// The ground that decided the disposition.
+    pub fn deciding_ground(&self) -> Option<&Ground> {
+        self.deciding.and_then(|i| self.grounds.get(i))
+    }
+
+    /// The plan shown for the lot (see [`LotDecision::shown_class`]).
+    pub fn shown_plan(&self) -> Option<&ClassDecision> {
+        self.shown_class.and_then(|class| self.classes.iter().find(|c| c.class == class))
+    }
+
+    /// Adds a ground after the decision was made (it decides nothing).
+    pub fn note(&mut self, topic: GroundTopic, text: impl Into<String>) {
+        self.grounds.push(Ground::note(topic, text));
+    }
+}
+
+/// The plan shown for a lot in `summary.json`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlanSummary {
+    /// Sample-size code letter.
+    pub code_letter: Option<String>,
+    /// Sample size.
+    pub sample_size: u64,
+    /// Acceptance number.
+    pub accept: Option<u64>,
+    /// Rejection number.
+    pub reject: Option<u64>,
+    /// Severity the lot was inspected under.
+    pub severity: Severity,
+}
+
+/// Rate statistics of a lot in `summary.json`.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+pub struct RateSummary {
+    /// Mean rate, N·mm/°.
+    pub mean: Option<f64>,
+    /// Standard deviation, N·mm/°.
+    pub sd: Option<f64>,
+    /// Cp.
+    pub cp: Option<f64>,
+    /// Cpk.
+    pub cpk: Option<f64>,
+    /// Lower 95 % bound on Cpk.
+    pub cpk_lower_95: Option<f64>,
+    /// Pp.
+    pub pp: Option<f64>,
+    /// Ppk.
+    pub ppk: Option<f64>,
+    /// Anderson–Darling p-value.
+    pub normality_p: Option<f64>,
+    /// How the indices were computed (`normal`, `percentile`…).
+    pub method: Option<String>,
+}
+
+/// A file that was not turned into a result, and why.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct RejectedFile {
+    /// The file as found.
+    pub file: String,
+    /// The reason, in words a person can act on.
+    pub reason: String,
+}
+
+/// A file whose bytes repeat an earlier file's, counted once.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct DuplicateFile {
+    /// The repeated file (not counted).
+    pub file: String,
+    /// The file that is counted.
+    pub same_as: String,
+    /// Lot the export names, if any.
+    pub lot: Option<String>,
+}
+
+/// An earlier test of a serial that was tested again.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct SupersededTest {
+    /// Serial tested twice.
+    pub serial: String,
+    /// The earlier test's file (not counted).
+    pub file: String,
+    /// Its start time as the rig wrote it.
+    pub started: Option<String>,
+    /// The file of the later test, which counts.
+    pub by: String,
+}
+
+/// One decided lot, as `summary.json`, the reports, sinks and the history carry it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct LotRecord {
+    /// Lot.
+    pub lot: String,
+    /// Part.
+    pub part: String,
+    /// Units in the lot.
+    pub quantity: u64,
+    /// The disposition.
+    pub disposition: Disposition,
+    /// Tests that count toward the lot.
+    pub tested: u64,
+    /// Counted tests that failed.
+    pub failed: u64,
+    /// Counted tests that could not be judged.
+    pub invalid: u64,
+    /// The plan shown (the class with the largest sample).
+    pub plan: Option<PlanSummary>,
+    /// Where the part stands for its next lot, after this lot's outcome.
+    pub next_severity: Option<InspectionState>,
+    /// Rate statistics.
+    pub rate: Option<RateSummary>,
+    /// Grounds of the disposition, in words.
+    pub grounds: Vec<String>,
+    /// The HTML report, relative to the output folder.
+    pub report_html: String,
+    /// The Markdown report, relative to the output folder.
+    pub report_md: String,
+    /// Files of this lot whose bytes repeat another file's.
+    pub duplicates: Vec<DuplicateFile>,
+    /// Earlier tests of serials tested again.
+    pub superseded: Vec<SupersededTest>,
+    /// The full decision, with structured grounds and every class's plan.
+    #[serde(skip)]
+    pub decision: Option<LotDecision>,
+}
+
+impl LotRecord {
+    /// The severity the lot was inspected under, and the next lot's when this one changed it.
+    pub fn severity_label(&self) -> String {
+        let used = self.plan.as_ref().map(|p| p.severity.as_str());
+        let next = self.next_severity.map(InspectionState::as_str);
+        match (used, next) {
+            (Some(used), Some(next)) if next != used => format!("{used} → {next}"),
+            (Some(used), _) => used.to_string(),
+            (None, Some(next)) => format!("→ {next}"),
+            (None, None) => "-".to_string(),
+        }
+    }
+
+    /// The ground that decided the disposition, in words.
+    pub fn deciding_ground(&self) -> Option<&str> {
+        self.decision.as_ref().and_then(|d| d.deciding_ground()).map(|g| g.text.as_str())
+    }
+}
+
+/// The shift as a whole: `summary.json`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ShiftRecord {
+    /// Shift name (the shift folder's name).
+    pub shift: String,
+    /// Export files found (the lot list excluded).
+    pub files_total: u64,
+    /// Files read and evaluated.
+    pub files_accepted: u64,
+    /// Files rejected, with reasons.
+    pub files_rejected: Vec<RejectedFile>,
+    /// Lots, in lot-list order.
+    pub lots: Vec<LotRecord>,
+    /// Tests whose lot is not on the shift's lot list (kept, not decided).
+    pub unlisted_tests: Vec<String>,
+    /// Sinks that failed, with reasons (results are kept all the same).
+    pub sink_failures: Vec<String>,
+    /// The switching record the severities came from and went to, if the plant keeps one.
+    pub switching_record: Option<String>,
+    /// Cautions.
+    pub cautions: Vec<String>,
+    /// Files whose bytes repeat another file's, counted once.
+    pub duplicates: Vec<DuplicateFile>,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn dispositions_rank_reject_over_hold_over_accept() {
+        let worst = [Disposition::Accept, Disposition::Reject, Disposition::Hold].into_iter().max();
+        assert_eq!(worst, Some(Disposition::Reject));
+        assert!(Disposition::Hold > Disposition::Accept);
+    }
+
+    #[test]
+    fn severity_labels_round_trip_and_refuse_others() {
+        for severity in Severity::ALL {
+            assert_eq!(severity.as_str().parse::<Severity>(), Ok(severity));
+        }
+        let err = "bogus".parse::<Severity>().unwrap_err();
+        assert!(err.to_string().contains("`bogus` is not a severity"), "{err}");
+    }
+
+    #[test]
+    fn test_status_serialises_flat_beside_the_record_fields() {
+        let status = TestStatus::Superseded { by: "b.csv".into() };
+        let json = serde_json::to_value(&status).unwrap();
+        assert_eq!(json, serde_json::json!({"status": "superseded", "by": "b.csv"}));
+        assert!(!status.is_counted());
+        assert!(TestStatus::default().is_counted());
+    }
+
+    #[test]
+    fn severity_label_shows_a_change_of_severity() {
+        let mut lot = LotRecord {
+            lot: "L1".into(),
+            part: "P".into(),
+            quantity: 10,
+            disposition: Disposition::Reject,
+            tested: 2,
+            failed: 1,
+            invalid: 0,
+            plan: Some(PlanSummary {
+                code_letter: Some("B".into()),
+                sample_size: 3,
+                accept: Some(0),
+                reject: Some(1),
+                severity: Severity::Normal,
+            }),
+            next_severity: Some(InspectionState::Tightened),
+            rate: None,
+            grounds: Vec::new(),
+            report_html: String::new(),
+            report_md: String::new(),
+            duplicates: Vec::new(),
+            superseded: Vec::new(),
+            decision: None,
+        };
+        assert_eq!(lot.severity_label(), "normal → tightened");
+        lot.next_severity = Some(InspectionState::Normal);
+        assert_eq!(lot.severity_label(), "normal");
+    }
+}

@@ -98,6 +98,14 @@ pub enum HistoryError {
     /// A part or shift name cannot name a partition folder.
     #[error("{0}")]
     Id(#[from] IdError),
+    /// A record's part cannot name a partition folder; nothing of the shift was stored.
+    #[error("{record}: {source}; nothing of the shift was stored")]
+    RecordPart {
+        /// The test's file or the lot, naming the record.
+        record: String,
+        /// Why the part cannot be a folder name.
+        source: IdError,
+    },
     /// Two names differ only in letter case, which case-insensitive file systems would merge.
     #[error(
         "{what} `{value}` differs from the stored {what} `{existing}` only in letter case; \

@@ -2,12 +2,13 @@
 
 use crate::escape::Partition;
 use crate::schema::Cells;
+use crate::store::current_of;
 use crate::store::HistoryStore;
-use crate::tables::{label, LOTS, TESTS};
+use crate::tables::{label, read_serial_rows, LOTS, TESTS};
 use crate::time::Timestamp;
 use crate::{HistoryError, Table};
 use polars::prelude::*;
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
 use std::fmt;
 use std::str::FromStr;
 use twistlot_model::record::{angle_key, Disposition, InspectionState, Severity, SwitchingCount};
@@ -370,7 +371,12 @@ impl HistoryStore {
         let Some((df, folder)) = self.part_frame(TESTS, &partition, &columns)? else { return Ok(Vec::new()) };
         let cells = Cells::new(&df, &folder);
         cells.check_schema_version()?;
-        let current = self.current_results(&partition)?;
+        // The serial's current result, from the same rows (no second read of the part).
+        let candidates = read_serial_rows(&cells, partition.value(), true)?;
+        let current: BTreeSet<(&str, &str)> = current_of(&candidates)
+            .values()
+            .map(|c| (c.test.shift.as_str(), c.test.content_hash.as_str()))
+            .collect();
         let (shift, seq, row, lot) =
             (cells.text("shift")?, cells.i64("shift_seq")?, cells.i64("row_index")?, cells.text("lot")?);
         let (serial, test_id, file, hash) =
@@ -403,7 +409,7 @@ impl HistoryStore {
             let shift = shift[i].clone().unwrap_or_default();
             let hash = hash[i].clone().unwrap_or_default();
             out.push(TestValue {
-                current: serial[i].is_none() || current.contains(&(shift.clone(), hash)),
+                current: serial[i].is_none() || current.contains(&(shift.as_str(), hash.as_str())),
                 shift,
                 shift_seq: seq[i].unwrap_or(0),
                 row_index: row[i].unwrap_or(0),

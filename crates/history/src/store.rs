@@ -103,7 +103,7 @@ fn polars_error<'a>(path: &'a Path, action: &'static str) -> impl FnOnce(PolarsE
 }
 
 /// The current result of each (part, serial).
-fn current_of(candidates: &[SerialRow]) -> BTreeMap<(Option<String>, String), &SerialRow> {
+pub(crate) fn current_of(candidates: &[SerialRow]) -> BTreeMap<(Option<String>, String), &SerialRow> {
     let mut current: BTreeMap<(Option<String>, String), &SerialRow> = BTreeMap::new();
     for c in candidates {
         let key = (c.part.clone(), c.serial.clone());
@@ -265,7 +265,9 @@ impl HistoryStore {
         let mut tests_by_part: BTreeMap<Partition, Vec<TestRow>> = BTreeMap::new();
         let mut new_candidates = Vec::new();
         for (index, record) in tests.iter().enumerate() {
-            let partition = Partition::optional("part", record.part.as_deref())?;
+            let partition = Partition::optional("part", record.part.as_deref()).map_err(|source| {
+                HistoryError::RecordPart { record: format!("test {}", record.file), source }
+            })?;
             let started_at = record.started.as_deref().and_then(Timestamp::parse).map(Timestamp::unix_ms);
             let row_index = i64::try_from(index).unwrap_or(i64::MAX);
             tests_by_part.entry(partition).or_default().push(TestRow {
@@ -294,7 +296,9 @@ impl HistoryStore {
         }
         let mut lots_by_part: BTreeMap<Partition, Vec<(usize, &LotRecord)>> = BTreeMap::new();
         for (index, lot) in lots.iter().enumerate() {
-            lots_by_part.entry(Partition::new("part", &lot.part)?).or_default().push((index, lot));
+            let partition = Partition::new("part", &lot.part)
+                .map_err(|source| HistoryError::RecordPart { record: format!("lot {}", lot.lot), source })?;
+            lots_by_part.entry(partition).or_default().push((index, lot));
         }
 
         let mut catalog = self.shifts()?;
@@ -678,18 +682,6 @@ impl HistoryStore {
         let mut log = read_replacements(&Cells::new(&df, &folder))?;
         log.sort_by(|a, b| a.recorded_at.cmp(&b.recorded_at).then_with(|| a.serial.cmp(&b.serial)));
         Ok(log)
-    }
-
-    /// The current result of each serial of `part`: (shift, content hash) of its latest test.
-    pub(crate) fn current_results(
-        &self,
-        part: &Partition,
-    ) -> Result<BTreeSet<(String, String)>, HistoryError> {
-        let candidates = self.candidates(part)?;
-        Ok(current_of(&candidates)
-            .values()
-            .map(|c| (c.test.shift.clone(), c.test.content_hash.clone()))
-            .collect())
     }
 }
 

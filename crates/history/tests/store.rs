@@ -274,7 +274,12 @@ fn names_that_cannot_be_folders_or_clash_by_case_are_refused() {
     assert!(matches!(err, HistoryError::CaseClash { .. }), "{err}");
     let err = store.write_shift("S1", &[], &[]).unwrap_err();
     assert!(err.to_string().contains("only in letter case"), "{err}");
+    let mut blank = test("P", "L", "S3", "2026-12-01T06:00", 1.0);
+    blank.part = Some(" ".to_string());
+    let err = store.write_shift("s3", &[blank], &[]).unwrap_err();
+    assert!(err.to_string().starts_with("test rig-a/S3.csv: part is empty"), "{err}");
     assert_eq!(rows(&store, Table::Tests), 1, "a refused write stores nothing");
+    assert_eq!(store.shifts().unwrap().len(), 1);
 }
 
 #[test]

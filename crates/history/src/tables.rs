@@ -7,8 +7,8 @@ use crate::HistoryError;
 use serde::de::DeserializeOwned;
 use std::collections::BTreeMap;
 use twistlot_model::record::{
-    CurveMetrics, Disposition, DuplicateFile, InspectionState, LotDecision, LotRecord, PlanSummary,
-    RateSummary, Severity, SupersededTest, SwitchingCount, TestRecord, TestStatus,
+    CharacteristicStats, CurveMetrics, Disposition, DuplicateFile, InspectionState, LotDecision, LotRecord,
+    PlanSummary, RateSummary, Severity, SupersededTest, SwitchingCount, TestRecord, TestStatus,
 };
 use twistlot_model::spec::{Finding, Verdict};
 
@@ -180,6 +180,7 @@ pub fn lot_columns<'a>() -> Vec<ColumnDef<LotRow<'a>>> {
         ColumnDef { name: "report_md", kind: Kind::Text, unit: "", doc: "the lot's Markdown report, relative to the shift's output folder", get: |r: &R| text(Some(&r.record.report_md)) },
         ColumnDef { name: "duplicates", kind: Kind::Json, unit: "", doc: "files of the lot repeating another file's bytes: array of `{file, same_as, lot}`", get: |r: &R| json(&r.record.duplicates) },
         ColumnDef { name: "superseded", kind: Kind::Json, unit: "", doc: "earlier tests of serials tested again: array of `{serial, file, started, by}`", get: |r: &R| json(&r.record.superseded) },
+        ColumnDef { name: "statistics", kind: Kind::Json, unit: "", doc: "the lot's statistics per toleranced characteristic (limits, mean, s, capability indices with their bounds and the reasons any are absent)", get: |r: &R| json(&r.record.statistics) },
         ColumnDef { name: "tests_from", kind: Kind::Time, unit: "plant clock", doc: "earliest readable start time of the lot's counted tests in the shift", get: |r: &R| t(r.tests_from) },
         ColumnDef { name: "tests_until", kind: Kind::Time, unit: "plant clock", doc: "latest readable start time of the lot's counted tests in the shift", get: |r: &R| t(r.tests_until) },
         ColumnDef { name: "decided_at", kind: Kind::Time, unit: "UTC unless the caller gave another", doc: "when the lot was decided (the shift's write time unless given)", get: |r: &R| t(Some(r.decided_at)) },
@@ -814,6 +815,7 @@ pub fn read_lots(cells: &Cells) -> Result<Vec<StoredLot>, HistoryError> {
     let report_md = cells.text("report_md")?;
     let duplicates = cells.json::<Vec<DuplicateFile>>("duplicates")?;
     let superseded = cells.json::<Vec<SupersededTest>>("superseded")?;
+    let statistics = cells.json::<Vec<CharacteristicStats>>("statistics")?;
     let tests_from = cells.time("tests_from")?;
     let tests_until = cells.time("tests_until")?;
     let decided_at = cells.time("decided_at")?;
@@ -876,6 +878,7 @@ pub fn read_lots(cells: &Cells) -> Result<Vec<StoredLot>, HistoryError> {
             duplicates: duplicates[i].clone().unwrap_or_default(),
             superseded: superseded[i].clone().unwrap_or_default(),
             decision: decision[i].clone(),
+            statistics: statistics[i].clone().unwrap_or_default(),
         };
         out.push(StoredLot {
             shift: required(cells, "shift", i, shift[i].clone())?,

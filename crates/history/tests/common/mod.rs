@@ -185,6 +185,7 @@ pub fn lot(
             by: "rig-a/S-9b.csv".to_string(),
         }],
         decision: Some(decision),
+        statistics: Vec::new(),
     }
 }
 
@@ -207,6 +208,7 @@ pub fn held_lot(part: &str, lot: &str) -> LotRecord {
         duplicates: Vec::new(),
         superseded: Vec::new(),
         decision: Some(LotDecision::hold(GroundTopic::Evidence, "no tests", None)),
+        statistics: Vec::new(),
     }
 }
 

@@ -31,7 +31,7 @@ fn the_demo_shift_is_judged_part_by_part() {
     let (code, rows) = evaluate_json(&[shift.to_str().unwrap(), "--plant", plant.to_str().unwrap()]);
     // Two broken exports and the lot list are rejected, so the run says so.
     assert_eq!(code, 3);
-    assert_eq!(rows.len(), 233);
+    assert_eq!(rows.len(), 253);
     for key in [
         "test_id",
         "file",
@@ -71,9 +71,12 @@ fn the_demo_shift_is_judged_part_by_part() {
         assert_eq!(row["verdict"], "invalid", "{serial}");
         assert!(failing_characteristics(row, "invalid").contains(&"torque@100".to_string()), "{serial}");
     }
+    // The swing-tested part that stiffens with angle fails the amplitude-dependence limit.
+    let stiffening = by_serial(&rows, "L2612-060-004");
+    assert_eq!(failing_characteristics(stiffening, "fail"), ["amplitude_dependence"]);
     let failed: Vec<&str> =
         rows.iter().filter(|r| r["verdict"] != "pass").map(|r| r["serial"].as_str().unwrap()).collect();
-    assert_eq!(failed.len(), 7, "{failed:?}");
+    assert_eq!(failed.len(), 8, "{failed:?}");
     // The exec-converted rig's parts are judged like any other.
     let gantry = rows.iter().filter(|r| r["rig"] == "RIG-D").count();
     assert_eq!(gantry, 50);

@@ -107,6 +107,7 @@ fn each_rig_folder_is_read_by_its_own_format_and_metadata_comes_through() {
         ("rig-b", "ostrel-semi"),
         ("rig-c", "pellam-fixed"),
         ("rig-d", "gantry-json"),
+        ("rig-e", "native-decay"),
     ];
     let mut formats_seen = BTreeSet::new();
     for row in rows.iter().filter(|r| r["status"] == "accepted") {

@@ -61,7 +61,7 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
 
     // One report per lot, both formats.
     let lots = summary["lots"].as_array().unwrap();
-    assert_eq!(lots.len(), 6);
+    assert_eq!(lots.len(), 7);
     for l in lots {
         for key in ["report_html", "report_md"] {
             let path = out.path().join(l[key].as_str().unwrap());
@@ -90,6 +90,11 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
     );
     assert_eq!(lot(&summary, "L2612-050")["disposition"], "accept");
     assert_eq!(lot(&summary, "L2612-051")["disposition"], "reject");
+    // The swing-tested lot: its free-decay exports are judged on the dynamic characteristics,
+    // and the one stiffening part fails the minor amplitude-dependence limit, within Ac 2.
+    let swung = lot(&summary, "L2612-060");
+    assert_eq!(swung["disposition"], "accept", "{swung}");
+    assert_eq!((swung["tested"].as_u64(), swung["failed"].as_u64()), (Some(20), Some(1)), "{swung}");
 
     // Severities come from the shipped switching record: TS-2210 earned reduced inspection
     // in earlier shifts, and L2612-040 is TS-0815's second rejection in five lots.
@@ -122,7 +127,7 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
     let csv = std::fs::read_to_string(out.path().join("tests.csv")).unwrap();
     assert_eq!(csv.lines().count() as u64, 1 + accepted);
     let sink = std::fs::read_to_string(out.path().join("lots.jsonl")).unwrap();
-    assert_eq!(sink.lines().count(), 6);
+    assert_eq!(sink.lines().count(), 7);
     let first: Value = serde_json::from_str(sink.lines().next().unwrap()).unwrap();
     assert_eq!(first["lot"]["lot"], "L2612-031");
     assert_eq!(first["tests"].as_array().unwrap().len(), 50);

@@ -41,6 +41,12 @@ enum Command {
     /// Measure each tested part's curve and judge it against its part spec.
     #[command(after_help = EXIT_HELP)]
     Evaluate(commands::evaluate::Args),
+    /// What a spring's drawing geometry predicts: rate, torque, stress, wound-down size (EN 13906-3 forms).
+    #[command(after_help = EXIT_HELP)]
+    Theory(commands::theory::Args),
+    /// The dynamic rate from free-decay (free-swing) records: one known inertia, or two added ones.
+    #[command(after_help = EXIT_HELP)]
+    Swing(commands::swing::Args),
     /// Look up attribute sampling plans, or design plans from producer's and consumer's risks.
     #[command(args_conflicts_with_subcommands = true, after_help = EXIT_HELP)]
     Sampling(commands::sampling::Args),
@@ -67,6 +73,8 @@ fn main() -> ExitCode {
         Command::Ingest(args) => commands::ingest::run(args),
         Command::Shift(args) => commands::shift::run(args),
         Command::Evaluate(args) => commands::evaluate::run(args),
+        Command::Theory(args) => commands::theory::run(args),
+        Command::Swing(args) => commands::swing::run(args),
         Command::Sampling(args) => commands::sampling::run(args),
         Command::Switching(args) => commands::switching::run(args),
         Command::Plugins(args) => commands::plugins::run(args),

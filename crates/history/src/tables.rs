@@ -8,7 +8,8 @@ use serde::de::DeserializeOwned;
 use std::collections::BTreeMap;
 use twistlot_model::record::{
     CharacteristicStats, CurveMetrics, Disposition, DuplicateFile, InspectionState, LotDecision, LotRecord,
-    PlanSummary, RateSummary, Severity, SupersededTest, SwitchingCount, TestRecord, TestStatus,
+    PlanSummary, RateSummary, Severity, SupersededTest, SwingMetrics, SwitchingCount, TestRecord, TestStatus,
+    TheoryRate,
 };
 use twistlot_model::spec::{Finding, Verdict};
 
@@ -101,6 +102,8 @@ pub fn test_columns<'a>() -> Vec<ColumnDef<TestRow<'a>>> {
         ColumnDef { name: "notes", kind: Kind::Json, unit: "", doc: "notes on what could not be measured: array of strings", get: |r: &R| json(&r.record.metrics.notes) },
         ColumnDef { name: "verdict", kind: Kind::Text, unit: "", doc: "`pass`, `fail`, `invalid`; null when there was no spec", get: |r: &R| text(r.record.verdict.map(Verdict::as_str)) },
         ColumnDef { name: "findings", kind: Kind::Json, unit: "", doc: "per characteristic: array of `{characteristic, class, value, lower, upper, verdict, message}`", get: |r: &R| json(&r.record.findings) },
+        ColumnDef { name: "swing", kind: Kind::Json, unit: "", doc: "a free-decay (swing) test's analysis: period, damping, κ, dynamic rate, amplitude dependence; null for a torque curve", get: |r: &R| match &r.record.swing { Some(s) => json(s), None => Value::Text(None) } },
+        ColumnDef { name: "theory", kind: Kind::Json, unit: "", doc: "the drawing's theoretical rate beside the measured one (rate, ratio, band); null when the spec gives no design", get: |r: &R| match &r.record.theory { Some(t) => json(t), None => Value::Text(None) } },
         ColumnDef { name: "status", kind: Kind::Text, unit: "", doc: "`counted`, `duplicate` (same bytes as `status_ref`) or `superseded` (tested again in `status_ref`)", get: |r: &R| text(Some(r.record.status.as_str())) },
         ColumnDef { name: "status_ref", kind: Kind::Text, unit: "", doc: "the file a duplicate repeats or a superseded test was replaced by", get: |r: &R| text(match &r.record.status { TestStatus::Counted => None, TestStatus::Duplicate { same_as } => Some(same_as), TestStatus::Superseded { by } => Some(by) }) },
         ColumnDef { name: "shift_seq", kind: Kind::I64, unit: "", doc: "the shift's place in the store's order (kept when the shift is written again)", get: |r: &R| Value::I64(Some(r.shift_seq)) },
@@ -672,6 +675,8 @@ pub fn read_tests(cells: &Cells) -> Result<Vec<StoredTest>, HistoryError> {
     let notes = cells.json::<Vec<String>>("notes")?;
     let verdict = cells.text("verdict")?;
     let findings = cells.json::<Vec<Finding>>("findings")?;
+    let swing = cells.json::<SwingMetrics>("swing")?;
+    let theory = cells.json::<TheoryRate>("theory")?;
     let status = cells.text("status")?;
     let status_ref = cells.text("status_ref")?;
     let shift_seq = cells.i64("shift_seq")?;
@@ -737,6 +742,8 @@ pub fn read_tests(cells: &Cells) -> Result<Vec<StoredTest>, HistoryError> {
             verdict,
             findings: findings[i].clone().unwrap_or_default(),
             status,
+            swing: swing[i].clone(),
+            theory: theory[i].clone(),
         };
         out.push(StoredTest {
             shift: required(cells, "shift", i, shift[i].clone())?,

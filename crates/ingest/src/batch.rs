@@ -113,6 +113,8 @@ pub struct FileSummary {
     pub reason: String,
     /// The rig format that read it (or was reading it when it failed).
     pub rig_format: Option<String>,
+    /// The kind of record read (absent when rejected).
+    pub record: Option<twistlot_model::RecordKind>,
     /// Number of points read.
     pub points: usize,
     /// Metadata as key → value, including `content_hash` (the path is `file`).
@@ -153,6 +155,7 @@ impl FileSummary {
                     status: FileStatus::Accepted,
                     reason: String::new(),
                     rig_format: Some(export.rig_format.clone()),
+                    record: Some(export.kind),
                     points: export.points(),
                     metadata,
                     warnings: Vec::new(),
@@ -170,6 +173,7 @@ impl FileSummary {
             status: FileStatus::Rejected,
             reason: err.reason(),
             rig_format: err.rig_format.clone(),
+            record: None,
             points: 0,
             metadata: BTreeMap::new(),
             warnings: Vec::new(),

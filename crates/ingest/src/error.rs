@@ -34,6 +34,10 @@ pub enum RejectKind {
     Converter,
     /// A cell of a stroke or cycle column that is not one of the expected values.
     BadLabel,
+    /// A record that reads but cannot be used as the kind its format says: a free decay
+    /// whose time does not rise, or one the swing analysis refuses (too short, too damped,
+    /// fewer than three swings, clipped, no clear equilibrium).
+    Unusable,
 }
 
 /// A rejected export: the file, where in it, and why.

@@ -4,11 +4,16 @@ use crate::error::{FormatError, IngestError, RejectKind};
 use crate::text::head_text;
 use std::path::{Path, PathBuf};
 use twistlot_model::plugin::{Detect, ExecSpec, Layout, Manifest, RigFormatManifest};
+use twistlot_model::RecordKind;
 
 /// The native format's manifest, shipped in `plugins/rig-formats/`; exec converters print this format.
 pub const NATIVE_MANIFEST: &str = include_str!("../../../plugins/rig-formats/native.yaml");
 /// The native format's plugin name.
 pub const NATIVE_NAME: &str = "native";
+/// The native free-decay format's manifest; exec converters of free-decay formats print this.
+pub const NATIVE_DECAY_MANIFEST: &str = include_str!("../../../plugins/rig-formats/native-decay.yaml");
+/// The native free-decay format's plugin name.
+pub const NATIVE_DECAY_NAME: &str = "native-decay";
 
 /// How a format's files are turned into curves.
 #[derive(Debug, Clone)]
@@ -33,6 +38,8 @@ pub struct RigFormat {
     pub description: String,
     /// The manifest file, when loaded from one.
     pub manifest_path: Option<PathBuf>,
+    /// Which kind of record its files hold.
+    pub record: RecordKind,
     detect: Detect,
     /// How files are read.
     pub reader: Reader,
@@ -59,6 +66,7 @@ impl RigFormat {
             name: manifest.name,
             description: manifest.description,
             manifest_path: manifest_path.map(Path::to_path_buf),
+            record: manifest.record,
             detect: manifest.detect,
             reader,
         })
@@ -66,13 +74,22 @@ impl RigFormat {
 
     /// The built-in native format.
     pub fn native() -> RigFormat {
-        match Manifest::from_yaml("native.yaml", NATIVE_MANIFEST) {
+        RigFormat::shipped("native.yaml", NATIVE_MANIFEST)
+    }
+
+    /// The built-in native free-decay format.
+    pub fn native_decay() -> RigFormat {
+        RigFormat::shipped("native-decay.yaml", NATIVE_DECAY_MANIFEST)
+    }
+
+    fn shipped(file: &str, text: &str) -> RigFormat {
+        match Manifest::from_yaml(file, text) {
             Ok(Manifest::RigFormat(manifest)) => match RigFormat::from_manifest(*manifest, None) {
                 Ok(format) => format,
-                Err(err) => panic!("the shipped native manifest does not compile: {err}"),
+                Err(err) => panic!("the shipped manifest {file} does not compile: {err}"),
             },
-            // The shipped manifest is checked by this crate's tests; only a broken build gets here.
-            other => panic!("the shipped native manifest does not load: {other:?}"),
+            // The shipped manifests are checked by this crate's tests; only a broken build gets here.
+            other => panic!("the shipped manifest {file} does not load: {other:?}"),
         }
     }
 
@@ -80,6 +97,13 @@ impl RigFormat {
     pub fn native_shared() -> &'static RigFormat {
         static NATIVE: std::sync::OnceLock<RigFormat> = std::sync::OnceLock::new();
         NATIVE.get_or_init(RigFormat::native)
+    }
+
+    /// The built-in native free-decay format, compiled once per process (exec converters of
+    /// free-decay formats print it).
+    pub fn native_decay_shared() -> &'static RigFormat {
+        static NATIVE_DECAY: std::sync::OnceLock<RigFormat> = std::sync::OnceLock::new();
+        NATIVE_DECAY.get_or_init(RigFormat::native_decay)
     }
 
     /// Whether this format's signature matches the file's name and first lines.
@@ -185,6 +209,18 @@ mod tests {
         assert_eq!(native.name, NATIVE_NAME);
         assert!(native.matches("a.csv", "# serial: 1\nangle_deg,torque_nmm\n0,0\n"));
         assert!(!native.matches("a.csv", "Angle;Torque\n"));
+    }
+
+    #[test]
+    fn native_decay_claims_swing_exports_and_native_does_not() {
+        let decay = RigFormat::native_decay();
+        assert_eq!((decay.name.as_str(), decay.record), (NATIVE_DECAY_NAME, RecordKind::FreeDecay));
+        assert_eq!(RigFormat::native().record, RecordKind::TorqueCurve);
+        let swing = "# record: free-decay\n# inertia_kgm2: 1e-4\ntime_s,angle_deg\n0,20\n";
+        let set = FormatSet::new(vec![RigFormat::native(), decay]).unwrap();
+        assert_eq!(set.detect("s.csv", swing.as_bytes()).unwrap().name, NATIVE_DECAY_NAME);
+        let curve = "# serial: 1\ntime_s,angle_deg,torque_nmm\n0,0,0\n";
+        assert_eq!(set.detect("c.csv", curve.as_bytes()).unwrap().name, NATIVE_NAME);
     }
 
     #[test]

@@ -17,7 +17,7 @@ pub struct RawCurve {
     pub metadata: Vec<(String, String)>,
     /// Angles, degrees.
     pub angle_deg: Vec<f64>,
-    /// Torques, N·mm.
+    /// Torques, N·mm (empty when the layout has no torque column: a free decay).
     pub torque_nmm: Vec<f64>,
     /// Times, seconds.
     pub time_s: Option<Vec<f64>>,
@@ -30,9 +30,17 @@ pub struct RawCurve {
 impl RawCurve {
     /// Appends a quickly read row, converting to canonical units.
     #[inline]
-    fn push_quick(&mut self, row: &QuickRow, angle_factor: f64, torque_factor: f64, seconds_per_unit: f64) {
+    fn push_quick(
+        &mut self,
+        row: &QuickRow,
+        angle_factor: f64,
+        torque_factor: Option<f64>,
+        seconds_per_unit: f64,
+    ) {
         self.angle_deg.push(row.angle * angle_factor);
-        self.torque_nmm.push(row.torque * torque_factor);
+        if let Some(factor) = torque_factor {
+            self.torque_nmm.push(row.torque * factor);
+        }
         if let Some(t) = self.time_s.as_mut() {
             t.push(row.time * seconds_per_unit);
         }
@@ -464,7 +472,8 @@ fn read_layout_with<'t>(
     let columns = &layout.columns;
     let header_line = header.as_ref().map(|(_, n)| *n);
     let angle = cx.pick(&columns.angle.pick, header.as_ref(), "angle")?;
-    let torque = cx.pick(&columns.torque.pick, header.as_ref(), "torque")?;
+    // A free-decay layout has no torque column; a torque-curve layout always has one.
+    let torque = columns.torque.as_ref().map(|t| cx.pick(&t.pick, header.as_ref(), "torque")).transpose()?;
     let optional = |pick: Option<&ColumnPick>, role: &str| -> Result<Option<Field>, IngestError> {
         match pick {
             None => Ok(None),
@@ -484,21 +493,25 @@ fn read_layout_with<'t>(
     let angle_unit: AngleUnit = angle_unit.parse().map_err(|e: twistlot_model::UnknownUnit| {
         cx.error(RejectKind::UnknownUnit, angle_unit_line, Some(&angle.label), e.to_string())
     })?;
-    let (torque_unit, torque_unit_line) =
-        cx.unit_text(&columns.torque.unit, &torque, header_line, &metadata)?;
-    let torque_unit: TorqueUnit = torque_unit.parse().map_err(|e: twistlot_model::UnknownUnit| {
-        cx.error(RejectKind::UnknownUnit, torque_unit_line, Some(&torque.label), e.to_string())
-    })?;
+    let torque_factor = match (&columns.torque, &torque) {
+        (Some(column), Some(field)) => {
+            let (unit, unit_line) = cx.unit_text(&column.unit, field, header_line, &metadata)?;
+            let unit: TorqueUnit = unit.parse().map_err(|e: twistlot_model::UnknownUnit| {
+                cx.error(RejectKind::UnknownUnit, unit_line, Some(&field.label), e.to_string())
+            })?;
+            Some(unit.nmm_per_unit() * column.sign)
+        }
+        _ => None,
+    };
     let angle_factor = angle_unit.deg_per_unit() * columns.angle.sign;
-    let torque_factor = torque_unit.nmm_per_unit() * columns.torque.sign;
     let seconds_per_unit = columns.time.as_ref().map(|t| t.seconds_per_unit).unwrap_or(1.0);
     let stroke_labels = columns.stroke.as_ref().map(|s| (s.load.clone(), s.unload.clone()));
 
     // Which fields each row needs, in field order.
-    let mut wanted: Vec<(usize, Role, &str)> = vec![
-        (angle.index, Role::Angle, angle.label.as_str()),
-        (torque.index, Role::Torque, torque.label.as_str()),
-    ];
+    let mut wanted: Vec<(usize, Role, &str)> = vec![(angle.index, Role::Angle, angle.label.as_str())];
+    if let Some(f) = &torque {
+        wanted.push((f.index, Role::Torque, f.label.as_str()));
+    }
     if let Some(f) = &time {
         wanted.push((f.index, Role::Time, f.label.as_str()));
     }
@@ -514,7 +527,7 @@ fn read_layout_with<'t>(
     let size_hint = text.len().saturating_sub(lines.pos) / 16;
     let mut raw = RawCurve {
         angle_deg: Vec::with_capacity(size_hint),
-        torque_nmm: Vec::with_capacity(size_hint),
+        torque_nmm: Vec::with_capacity(if torque.is_some() { size_hint } else { 0 }),
         time_s: time.as_ref().map(|_| Vec::with_capacity(size_hint)),
         stroke: stroke.as_ref().map(|_| Vec::with_capacity(size_hint)),
         cycle: cycle.as_ref().map(|_| Vec::with_capacity(size_hint)),
@@ -586,7 +599,7 @@ fn read_layout_with<'t>(
                     })?;
                     match role {
                         Role::Angle => raw.angle_deg.push(value * angle_factor),
-                        Role::Torque => raw.torque_nmm.push(value * torque_factor),
+                        Role::Torque => raw.torque_nmm.push(value * torque_factor.unwrap_or(1.0)),
                         _ => {
                             if let Some(t) = raw.time_s.as_mut() {
                                 t.push(value * seconds_per_unit)
@@ -741,6 +754,22 @@ mod tests {
                 }
             }
             same_either_way(&layout("native.yaml"), &text)?;
+        }
+
+        #[test]
+        fn free_decay_rows_without_torque_read_the_same_by_both_paths(
+            rows in proptest::collection::vec((cell(), cell()), 1..12),
+        ) {
+            let mut text = String::from("# record: free-decay\ntime_s,angle_deg\n");
+            for (t, a) in &rows {
+                text.push_str(&format!("{t},{a}\n"));
+            }
+            let decay = layout("native-decay.yaml");
+            same_either_way(&decay, &text)?;
+            if let Ok(raw) = read_layout("f", "x", &decay, &text) {
+                prop_assert!(raw.torque_nmm.is_empty() && raw.stroke.is_none());
+                prop_assert_eq!(raw.time_s.map(|t| t.len()), Some(raw.angle_deg.len()));
+            }
         }
 
         #[test]

@@ -5,7 +5,9 @@
 //! rows with a tight decimal tokenizer, converting units to N·mm and degrees,
 //! deriving load/unload strokes and cycles when the rig does not record them,
 //! running exec converters, and accounting for every file as accepted or rejected
-//! with a reason that names file, line and column.
+//! with a reason that names file, line and column. A format whose manifest says
+//! `record: free-decay` yields a free-decay frame instead (time and angle, no torque,
+//! never split into strokes; [`Export::decay`]).
 //!
 //! Not for: finding plugin manifests on disk (the pipeline does that and hands
 //! compiled [`RigFormat`]s in), judging curves (`stats`), or printing.

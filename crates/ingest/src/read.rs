@@ -9,7 +9,7 @@ use crate::text::{check_text_like, decode};
 use polars::prelude::*;
 use std::path::Path;
 use twistlot_model::curve::column;
-use twistlot_model::{CurveData, Stroke, TestMetadata};
+use twistlot_model::{CurveData, DecayData, RecordKind, Stroke, TestMetadata};
 
 /// One accepted export in canonical form.
 #[derive(Debug, Clone)]
@@ -18,7 +18,10 @@ pub struct Export {
     pub metadata: TestMetadata,
     /// The rig format that read it.
     pub rig_format: String,
-    /// The canonical curve frame (DESIGN.md §4).
+    /// The kind of record, as the rig format's manifest states it.
+    pub kind: RecordKind,
+    /// The canonical frame (DESIGN.md §4): a torque curve's, or for a free decay
+    /// `test_id`, `point`, `time_s` and `angle_deg` only (never split into strokes).
     pub frame: DataFrame,
 }
 
@@ -28,9 +31,17 @@ impl Export {
         self.frame.height()
     }
 
-    /// The curve as plain columns, for the computations in `stats`.
+    /// The curve as plain columns, for the computations in `stats` (torque curves only).
     pub fn curve(&self) -> Result<CurveData, PolarsError> {
         curve_from_frame(&self.frame)
+    }
+
+    /// The free-decay record as plain columns, for the swing analysis in `physics`.
+    pub fn decay(&self) -> Result<DecayData, PolarsError> {
+        let floats = |name: &str| -> PolarsResult<Vec<f64>> {
+            Ok(self.frame.column(name)?.f64()?.into_no_null_iter().collect())
+        };
+        Ok(DecayData { time_s: floats(column::TIME_S)?, angle_deg: floats(column::ANGLE_DEG)? })
     }
 }
 
@@ -76,7 +87,10 @@ pub fn read_with(file: &str, path: &Path, bytes: &[u8], format: &RigFormat) -> R
         }
         Reader::Exec { spec, plugin_dir } => {
             let printed = run_converter(file, path, &format.name, spec, plugin_dir)?;
-            let native = RigFormat::native_shared();
+            let native = match format.record {
+                RecordKind::TorqueCurve => RigFormat::native_shared(),
+                RecordKind::FreeDecay => RigFormat::native_decay_shared(),
+            };
             let Reader::Layout(layout) = &native.reader else {
                 return Err(IngestError::file(
                     RejectKind::Converter,
@@ -101,11 +115,58 @@ pub fn read_with(file: &str, path: &Path, bytes: &[u8], format: &RigFormat) -> R
     for (key, value) in &raw.metadata {
         metadata.set(key, value);
     }
-    let frame = build_frame(&metadata.test_id(), raw).map_err(|e| {
+    let frame = match format.record {
+        RecordKind::TorqueCurve => build_frame(&metadata.test_id(), raw),
+        RecordKind::FreeDecay => {
+            let time_s = check_decay(file, &raw).map_err(|e| e.with_format(&format.name))?;
+            build_decay_frame(&metadata.test_id(), time_s, raw.angle_deg)
+        }
+    }
+    .map_err(|e| {
         IngestError::file(RejectKind::Io, file, format!("could not build the curve frame: {e}"))
             .with_format(&format.name)
     })?;
-    Ok(Export { metadata, rig_format: format.name.clone(), frame })
+    Ok(Export { metadata, rig_format: format.name.clone(), kind: format.record, frame })
+}
+
+/// A free decay must carry a time that rises from sample to sample: the swing analysis
+/// measures periods on it. Returns the time column.
+fn check_decay(file: &str, raw: &RawCurve) -> Result<Vec<f64>, IngestError> {
+    let Some(time_s) = &raw.time_s else {
+        return Err(IngestError::file(
+            RejectKind::MissingColumn,
+            file,
+            "a free-decay record needs a time column, and the file has none",
+        ));
+    };
+    if let Some(i) = (1..time_s.len()).find(|&i| time_s[i] <= time_s[i - 1]) {
+        return Err(IngestError::file(
+            RejectKind::Unusable,
+            file,
+            format!(
+                "data row {}: time {} s does not follow {} s; a free-decay record must be in rising time \
+                 order without repeats",
+                i + 1,
+                time_s[i],
+                time_s[i - 1]
+            ),
+        ));
+    }
+    Ok(time_s.clone())
+}
+
+/// Builds a free decay's frame: `test_id`, `point`, `time_s`, `angle_deg`; no strokes.
+pub fn build_decay_frame(test_id: &str, time_s: Vec<f64>, angle_deg: Vec<f64>) -> PolarsResult<DataFrame> {
+    let n = angle_deg.len();
+    DataFrame::new(
+        n,
+        vec![
+            Column::new_scalar(column::TEST_ID.into(), Scalar::from(PlSmallStr::from_str(test_id)), n),
+            Column::new(column::POINT.into(), (0..n as u32).collect::<Vec<u32>>()),
+            Float64Chunked::from_vec(column::TIME_S.into(), time_s).into_series().into(),
+            Float64Chunked::from_vec(column::ANGLE_DEG.into(), angle_deg).into_series().into(),
+        ],
+    )
 }
 
 fn converter_output(mut err: IngestError, plugin: &str) -> IngestError {

@@ -5,8 +5,11 @@ use rand_chacha::ChaCha8Rng;
 use std::path::{Path, PathBuf};
 use twistlot_ingest::{read_bytes, FormatSet, RejectKind, RigFormat};
 use twistlot_model::plugin::RigFormatManifest;
-use twistlot_model::{CurveData, Manifest, Stroke};
-use twistlot_synth::{printed_resolution, write_gantry_json, write_layout, SpringModel, WriteStyle};
+use twistlot_model::{CurveData, Manifest, RecordKind, Stroke};
+use twistlot_synth::{
+    printed_resolution, write_decay_layout, write_gantry_json, write_layout, DecayModel, SpringModel,
+    WriteStyle,
+};
 
 /// This crate's folder as cargo names it when running the test (not as compiled in),
 /// so a test binary from a shared build cache reads this checkout's files.
@@ -42,7 +45,49 @@ fn all_formats() -> FormatSet {
         let (m, path) = manifest(file);
         formats.push(RigFormat::from_manifest(m, Some(&path)).unwrap());
     }
+    formats.push(RigFormat::native_decay());
     FormatSet::new(formats).unwrap()
+}
+
+#[test]
+fn a_free_decay_round_trips_through_the_native_decay_layout_without_strokes() {
+    let (m, _) = manifest("native-decay.yaml");
+    assert_eq!(m.record, RecordKind::FreeDecay);
+    let record = DecayModel { sample_rate_hz: 2000.0, duration_s: 2.0, ..DecayModel::linear(300.0, 1.0e-3) }
+        .simulate(3)
+        .unwrap();
+    let mut meta = metadata();
+    meta.push(("record", "free-decay".into()));
+    meta.push(("inertia_kgm2", "0.001".into()));
+    let bytes = write_decay_layout(&m, &WriteStyle::for_format(&m.name), &meta, &record).unwrap();
+    let text = String::from_utf8(bytes.clone()).unwrap();
+    assert!(text.contains("# record:free-decay\n") && text.contains("\ntime_s,angle_deg\n"), "{text}");
+    let export = read(&all_formats(), "swing.csv", &bytes).unwrap();
+    assert_eq!((export.rig_format.as_str(), export.kind), ("native-decay", RecordKind::FreeDecay));
+    // Never split into strokes: the frame holds no stroke, cycle or torque column.
+    let names: Vec<String> = export.frame.get_column_names().iter().map(|n| n.to_string()).collect();
+    assert_eq!(names, ["test_id", "point", "time_s", "angle_deg"]);
+    let back = export.decay().unwrap();
+    assert_eq!(back.time_s.len(), record.time_s.len());
+    for k in 0..back.time_s.len() {
+        // Written with 6 decimals of seconds and 3 of degrees (0.5 µs is below 2 kHz's 500 µs step).
+        assert!((back.time_s[k] - record.time_s[k]).abs() <= 0.5e-6 + 1e-12, "time {k}");
+        assert!((back.angle_deg[k] - record.angle_deg[k]).abs() <= 0.5e-3 + 1e-9, "angle {k}");
+    }
+    assert_eq!(export.metadata.inertia_kgm2(), Ok(Some(1.0e-3)));
+    assert!(export.curve().is_err(), "a free decay has no torque curve");
+}
+
+#[test]
+fn a_free_decay_whose_time_does_not_rise_is_refused_with_the_row() {
+    let swing = "# record: free-decay\ntime_s,angle_deg\n0.000,1\n0.010,2\n0.010,3\n0.020,4\n";
+    let err = read(&all_formats(), "swing.csv", swing.as_bytes()).unwrap_err();
+    assert_eq!(err.kind, RejectKind::Unusable, "{err}");
+    assert_eq!(err.rig_format.as_deref(), Some("native-decay"));
+    assert!(err.message.contains("data row 3") && err.message.contains("rising time"), "{err}");
+    let no_angle = "# record: free-decay\ntime_s,angle\n0,1\n";
+    let err = read(&all_formats(), "swing.csv", no_angle.as_bytes()).unwrap_err();
+    assert_eq!(err.kind, RejectKind::Unrecognised, "no `angle_deg` in the head: {err}");
 }
 
 fn sample_curve(seed: u64) -> CurveData {

@@ -16,8 +16,51 @@ pub mod column {
     pub const STROKE: &str = "stroke";
     /// Cycle number, from 1; pre-cycles come first.
     pub const CYCLE: &str = "cycle";
-    /// Time since the start of the test, seconds (only when the rig records it).
+    /// Time since the start of the test, seconds (only when the rig records it; always in
+    /// a free-decay frame, which has `test_id`, `point`, `time_s` and `angle_deg` only).
     pub const TIME_S: &str = "time_s";
+}
+
+/// What kind of test a record holds; a rig-format manifest states which one it produces.
+///
+/// The two kinds are read by the same rig-format plugins into different frames and are
+/// evaluated differently: a torque curve is split into load/unload strokes and yields a
+/// rate by least squares; a free decay (a spring swinging a known inertia after release)
+/// has no torque, is never split into strokes, and yields a period, a decrement and a
+/// dynamic rate (DESIGN.md §2, §6).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum RecordKind {
+    /// Torque against angle through a load and an unload stroke (the static rig test).
+    #[default]
+    TorqueCurve,
+    /// Angle against time of a spring swinging a known inertia after release; no torque.
+    FreeDecay,
+}
+
+impl RecordKind {
+    /// The label used in manifests and outputs.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            RecordKind::TorqueCurve => "torque-curve",
+            RecordKind::FreeDecay => "free-decay",
+        }
+    }
+}
+
+impl std::fmt::Display for RecordKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// One free-decay record in canonical units: time and angle per sample, no torque.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct DecayData {
+    /// Time per sample, seconds.
+    pub time_s: Vec<f64>,
+    /// Angle per sample, degrees.
+    pub angle_deg: Vec<f64>,
 }
 
 /// Direction of travel of the moving leg.

@@ -12,10 +12,10 @@
 //! no I/O, so every layer above can depend on it without pulling anything in.
 //!
 //! Main types: [`TorqueUnit`], [`AngleUnit`], [`CurveData`], [`TestMetadata`],
-//! [`PartSpec`], [`Verdict`], [`Finding`], [`Manifest`], [`DocumentError`], [`Rig`],
+//! [`PartSpec`], [`Verdict`], [`Finding`], [`Manifest`], [`DocumentError`], [`Rig`], [`RecordKind`],
 //! [`LotList`], [`PlantTime`], and the records [`TestRecord`], [`LotRecord`],
-//! [`LotDecision`], [`ShiftRecord`] with the enums [`Disposition`], [`Severity`] and
-//! [`InspectionState`].
+//! [`LotDecision`], [`ShiftRecord`] (with [`SwingMetrics`] and [`TheoryRate`] on a test) and the
+//! enums [`Disposition`], [`Severity`] and [`InspectionState`].
 
 pub mod capability;
 pub mod curve;
@@ -31,15 +31,16 @@ pub mod yaml;
 pub mod yaml_list;
 
 pub use capability::{Absent, AbsentReason, Capability, CapabilityMethod, FittedDistribution, WithinSigma};
-pub use curve::{CurveData, Stroke};
+pub use curve::{CurveData, DecayData, RecordKind, Stroke};
 pub use lot_list::{ListedLot, LotList};
 pub use metadata::TestMetadata;
 pub use plant_time::{BadTime, ClockTime, PlantTime};
 pub use plugin::{Manifest, PluginHeader, PluginKind};
 pub use record::{
-    AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, Disposition, DuplicateFile, Ground,
-    GroundTopic, InspectionState, LotDecision, LotRecord, PlanSummary, RateSummary, RejectedFile, Severity,
-    ShiftRecord, SupersededTest, SwitchingCount, TestRecord, TestStatus, UnknownLabel, VariablesDecision,
+    AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, DecayShape, Disposition, DuplicateFile,
+    Ground, GroundTopic, InspectionState, LotDecision, LotRecord, PlanSummary, RateSummary, RejectedFile,
+    Severity, ShiftRecord, SupersededTest, SwingMetrics, SwitchingCount, TestRecord, TestStatus, TheoryRate,
+    UnknownLabel, VariablesDecision,
 };
 pub use rig::{validate_rigs, Availability, ReferenceSpring, Rig, RigFieldError, RigList, ShiftClock};
 pub use spec::{CharacteristicClass, Finding, Limits, PartSpec, Tolerance, Verdict};

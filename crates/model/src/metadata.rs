@@ -19,6 +19,10 @@ pub mod key {
     pub const STARTED: &str = "started";
     /// Every key twistlot gives a meaning to.
     pub const KNOWN: [&str; 6] = [SERIAL, PART, LOT, RIG, OPERATOR, STARTED];
+    /// The whole inertia a free-decay record's spring swings, kg·m² (kept in `extra`).
+    pub const INERTIA_KGM2: &str = "inertia_kgm2";
+    /// The record kind a native free-decay export states (`free-decay`), kept in `extra`.
+    pub const RECORD: &str = "record";
 }
 
 /// Metadata of one test: the known keys plus whatever else the export carried.
@@ -63,6 +67,19 @@ impl TestMetadata {
         *slot = Some(value);
     }
 
+    /// The inertia the export states under [`key::INERTIA_KGM2`], kg·m²: `Ok(None)` when it
+    /// states none, `Err` with the reason when the value is not a positive number.
+    pub fn inertia_kgm2(&self) -> Result<Option<f64>, String> {
+        let Some(text) = self.extra.get(key::INERTIA_KGM2) else { return Ok(None) };
+        match text.trim().parse::<f64>() {
+            Ok(value) if value.is_finite() && value > 0.0 => Ok(Some(value)),
+            _ => Err(format!(
+                "the metadata line `{}: {text}` is not an inertia in kg·m² above zero",
+                key::INERTIA_KGM2
+            )),
+        }
+    }
+
     /// A test identifier that is stable for the same file content: serial when
     /// known, made unique by the start of the content hash.
     pub fn test_id(&self) -> String {
@@ -87,6 +104,19 @@ mod tests {
         assert_eq!(meta.serial.as_deref(), Some("S-001"));
         assert_eq!(meta.lot.as_deref(), Some("L7"));
         assert_eq!(meta.extra.get("fixture").map(String::as_str), Some("F2"));
+    }
+
+    #[test]
+    fn inertia_is_read_from_extra_and_refused_when_not_a_positive_number() {
+        let mut meta = TestMetadata::default();
+        assert_eq!(meta.inertia_kgm2(), Ok(None));
+        meta.set(key::INERTIA_KGM2, " 2.5e-4 ");
+        assert_eq!(meta.inertia_kgm2(), Ok(Some(2.5e-4)));
+        for bad in ["0", "-1e-3", "heavy", "NaN"] {
+            meta.set(key::INERTIA_KGM2, bad);
+            let err = meta.inertia_kgm2().unwrap_err();
+            assert!(err.contains("inertia_kgm2") && err.contains(bad), "{err}");
+        }
     }
 
     #[test]

@@ -6,6 +6,7 @@
 //! The `sampling-scheme` body is table data owned by the sampling crate, so here it
 //! is only recognised by its header.
 
+use crate::curve::RecordKind;
 use crate::spec::CharacteristicClass;
 use crate::units::{AngleUnit, TorqueUnit};
 use crate::yaml::{parse_document, DocumentError};
@@ -253,8 +254,9 @@ pub struct StrokeColumn {
 pub struct Columns {
     /// Leg angle.
     pub angle: MeasuredColumn,
-    /// Torque.
-    pub torque: MeasuredColumn,
+    /// Torque: required for a torque curve, absent for a free decay.
+    #[serde(default)]
+    pub torque: Option<MeasuredColumn>,
     /// Time, when recorded.
     #[serde(default)]
     pub time: Option<TimeColumn>,
@@ -323,6 +325,10 @@ pub struct RigFormatManifest {
     pub api: u32,
     /// Description.
     pub description: String,
+    /// Which kind of record the format's files hold (default `torque-curve`; `free-decay`
+    /// for swing exports: a time and an angle column, no torque, stroke or cycle column).
+    #[serde(default)]
+    pub record: RecordKind,
     /// How files of this format are recognised.
     pub detect: Detect,
     /// The declarative layout (give this or `exec`).
@@ -523,10 +529,11 @@ fn validate_rig_format(origin: &str, text: &str, m: &RigFormatManifest) -> Resul
                 );
             }
             let columns = &layout.columns;
-            let mut picks: Vec<(&str, &ColumnPick)> = vec![
-                ("layout.columns.angle", &columns.angle.pick),
-                ("layout.columns.torque", &columns.torque.pick),
-            ];
+            validate_record_columns(m.record, columns).or_else(|(field, message)| fail(field, message))?;
+            let mut picks: Vec<(&str, &ColumnPick)> = vec![("layout.columns.angle", &columns.angle.pick)];
+            if let Some(torque) = &columns.torque {
+                picks.push(("layout.columns.torque", &torque.pick));
+            }
             if let Some(time) = &columns.time {
                 picks.push(("layout.columns.time", &time.pick));
             }
@@ -550,9 +557,9 @@ fn validate_rig_format(origin: &str, text: &str, m: &RigFormatManifest) -> Resul
                     _ => {}
                 }
             }
-            for (field, column) in
-                [("layout.columns.angle", &columns.angle), ("layout.columns.torque", &columns.torque)]
-            {
+            let measured = std::iter::once(("layout.columns.angle", &columns.angle))
+                .chain(columns.torque.as_ref().map(|t| ("layout.columns.torque", t)));
+            for (field, column) in measured {
                 if column.sign != 1.0 && column.sign != -1.0 {
                     return fail(
                         &format!("{field}.sign"),
@@ -571,7 +578,7 @@ fn validate_rig_format(origin: &str, text: &str, m: &RigFormatManifest) -> Resul
                     return fail("layout.columns.angle.unit", err.to_string());
                 }
             }
-            if let UnitSource::Fixed(unit) = &columns.torque.unit {
+            if let Some(UnitSource::Fixed(unit)) = columns.torque.as_ref().map(|t| &t.unit) {
                 if let Err(err) = unit.parse::<TorqueUnit>() {
                     return fail("layout.columns.torque.unit", err.to_string());
                 }
@@ -590,6 +597,37 @@ fn validate_rig_format(origin: &str, text: &str, m: &RigFormatManifest) -> Resul
         }
     }
     Ok(())
+}
+
+/// The columns a record kind needs and forbids; `Err` names the field and what to do.
+fn validate_record_columns(record: RecordKind, columns: &Columns) -> Result<(), (&'static str, String)> {
+    match record {
+        RecordKind::TorqueCurve if columns.torque.is_none() => Err((
+            "layout.columns",
+            "a torque-curve format needs a `torque` column (or say `record: free-decay` for swing exports)"
+                .into(),
+        )),
+        RecordKind::TorqueCurve => Ok(()),
+        RecordKind::FreeDecay => {
+            if columns.time.is_none() {
+                return Err(("layout.columns", "a free-decay format needs a `time` column".into()));
+            }
+            // A free decay is one record of angle over time: no torque, and never split into strokes.
+            let forbidden = [
+                ("layout.columns.torque", columns.torque.is_some(), "a free-decay record has no torque"),
+                (
+                    "layout.columns.stroke",
+                    columns.stroke.is_some(),
+                    "a free decay is never split into strokes",
+                ),
+                ("layout.columns.cycle", columns.cycle.is_some(), "a free decay has no load cycles"),
+            ];
+            match forbidden.into_iter().find(|(_, present, _)| *present) {
+                Some((field, _, why)) => Err((field, format!("{why}; remove this column from the layout"))),
+                None => Ok(()),
+            }
+        }
+    }
 }
 
 #[cfg(test)]
@@ -622,6 +660,53 @@ layout:
         assert_eq!(layout.delimiter, Delimiter::Byte(b','));
         assert_eq!(layout.columns.angle.sign, 1.0);
         assert_eq!(m.detect.within_lines, 40);
+    }
+
+    const DECAY: &str = r##"
+name: swing
+kind: rig-format
+api: 1
+description: a swing bench's export
+record: free-decay
+detect:
+  contains: ["record: free-decay"]
+layout:
+  encoding: utf-8
+  delimiter: ","
+  decimal: "."
+  metadata: { prefix: "#", separator: ":" }
+  columns:
+    time: { name: time_s }
+    angle: { name: angle_deg, unit: deg }
+"##;
+
+    #[test]
+    fn the_record_kind_defaults_to_a_torque_curve_and_free_decay_needs_time_and_no_torque() {
+        let Manifest::RigFormat(native) = Manifest::from_yaml("native.yaml", NATIVE).unwrap() else {
+            panic!("not a rig format");
+        };
+        assert_eq!(native.record, RecordKind::TorqueCurve);
+        let Manifest::RigFormat(decay) = Manifest::from_yaml("swing.yaml", DECAY).unwrap() else {
+            panic!("not a rig format");
+        };
+        assert_eq!(decay.record, RecordKind::FreeDecay);
+        assert!(decay.layout.unwrap().columns.torque.is_none());
+
+        let no_time = DECAY.replace("    time: { name: time_s }\n", "");
+        let err = Manifest::from_yaml("swing.yaml", &no_time).unwrap_err();
+        assert!(err.message.contains("`time` column"), "{err}");
+        let with_torque = DECAY.replace("    time:", "    torque: { name: t, unit: N·mm }\n    time:");
+        let err = Manifest::from_yaml("swing.yaml", &with_torque).unwrap_err();
+        assert_eq!(err.field.as_deref(), Some("layout.columns.torque"), "{err}");
+        let with_stroke =
+            DECAY.replace("    time:", "    stroke: { name: d, load: a, unload: b }\n    time:");
+        let err = Manifest::from_yaml("swing.yaml", &with_stroke).unwrap_err();
+        assert!(err.message.contains("never split into strokes"), "{err}");
+        let no_torque = NATIVE.replace("    torque: { name: torque_nmm, unit: N·mm }\n", "");
+        let err = Manifest::from_yaml("native.yaml", &no_torque).unwrap_err();
+        assert!(err.message.contains("needs a `torque` column"), "{err}");
+        let unknown = DECAY.replace("record: free-decay", "record: pendulum");
+        assert!(Manifest::from_yaml("swing.yaml", &unknown).unwrap_err().to_string().contains("pendulum"));
     }
 
     #[test]

@@ -329,6 +329,76 @@ impl TestStatus {
     }
 }
 
+/// How a free swing's amplitude falls over the record.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum DecayShape {
+    /// By a constant ratio per swing: viscous (velocity-proportional) damping.
+    Exponential,
+    /// By a constant amount per swing: dry (Coulomb) friction.
+    Linear,
+    /// Too little decay, or too much scatter, to tell the two apart.
+    Undetermined,
+}
+
+/// What a free-swing (free-decay) test measured: the figures outputs carry per test.
+///
+/// The physics crate's analysis holds more (every peak, the fit's residual); this is the
+/// part a lot report, `tests.csv`, a sink or the history needs.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SwingMetrics {
+    /// The whole inertia the spring swung, kg·m², when known.
+    pub inertia_kgm2: Option<f64>,
+    /// Where the inertia came from: `export` (its metadata) or `spec` (`test.inertia_kgm2`).
+    pub inertia_from: Option<String>,
+    /// Damped period, s.
+    pub period_s: f64,
+    /// Observed swing frequency 1/period, Hz.
+    pub frequency_hz: f64,
+    /// Undamped natural frequency ω0/2π, Hz.
+    pub natural_frequency_hz: f64,
+    /// Logarithmic decrement per period.
+    pub log_decrement: f64,
+    /// Damping ratio ζ.
+    pub damping_ratio: f64,
+    /// Torsion constant κ = I·ω0², N·mm/rad, when the inertia is known.
+    pub kappa_nmm_per_rad: Option<f64>,
+    /// Dynamic rate κ·π/180, N·mm/°, when the inertia is known.
+    pub rate_nmm_per_deg: Option<f64>,
+    /// Period at large amplitude against small amplitude, percent.
+    pub amplitude_dependence_pct: f64,
+    /// Whether the amplitude dependence exceeds the analysis' flag limit.
+    pub amplitude_dependence_flagged: bool,
+    /// How the amplitude falls.
+    pub decay: DecayShape,
+    /// Dry-friction torque, N·mm, when the decay is linear and the inertia known.
+    pub friction_torque_nmm: Option<f64>,
+    /// Complete swings analysed.
+    pub swings: usize,
+    /// Amplitude of the first analysed peak, degrees.
+    pub initial_amplitude_deg: f64,
+    /// Equilibrium angle, degrees.
+    pub equilibrium_deg: f64,
+    /// What a reader should know about the numbers.
+    pub notes: Vec<String>,
+}
+
+/// The rate a part's drawing predicts and how a test's measured rate compares with it.
+///
+/// A plausibility check on the rig, the wire and the coil count: a ratio outside the
+/// band is a caution for the engineer, never a verdict on the part.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TheoryRate {
+    /// Theoretical rate E·d⁴/(3667·D·n) from the spec's geometry and material, N·mm/° (EN 13906-3).
+    pub rate_nmm_per_deg: f64,
+    /// Measured rate (static least squares, or dynamic from a swing) divided by the theoretical one.
+    pub ratio: Option<f64>,
+    /// The band `[lo, hi]` a plausible ratio lies in.
+    pub band: [f64; 2],
+    /// True when the ratio lies outside the band.
+    pub outside_band: bool,
+}
+
 /// One evaluated test: where it came from, what was measured, how it was judged.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct TestRecord {
@@ -356,9 +426,16 @@ pub struct TestRecord {
     pub spec_file: Option<String>,
     /// Drawing revision of that spec.
     pub spec_revision: Option<String>,
-    /// The curve metrics.
+    /// The curve metrics (all absent for a free-decay test, which has no torque curve).
     #[serde(flatten)]
     pub metrics: CurveMetrics,
+    /// The free-swing figures, for a free-decay test; absent for a torque curve.
+    #[serde(default)]
+    pub swing: Option<SwingMetrics>,
+    /// The drawing's theoretical rate and this test's measured/theory ratio, when the spec's
+    /// geometry gives one.
+    #[serde(default)]
+    pub theory: Option<TheoryRate>,
     /// Verdict, absent when there was no spec to judge against.
     pub verdict: Option<Verdict>,
     /// Findings per characteristic.
@@ -372,6 +449,24 @@ impl TestRecord {
     /// The verdict used for counting: a test without one cannot be judged, so it is invalid.
     pub fn verdict_or_invalid(&self) -> Verdict {
         self.verdict.unwrap_or(Verdict::Invalid)
+    }
+
+    /// The kind of record the test came from.
+    pub fn kind(&self) -> crate::curve::RecordKind {
+        if self.swing.is_some() {
+            crate::curve::RecordKind::FreeDecay
+        } else {
+            crate::curve::RecordKind::TorqueCurve
+        }
+    }
+
+    /// The rate this test measured: the least-squares rate of a torque curve, or the
+    /// dynamic rate of a free swing.
+    pub fn measured_rate_nmm_per_deg(&self) -> Option<f64> {
+        match &self.swing {
+            Some(swing) => swing.rate_nmm_per_deg,
+            None => self.metrics.rate_nmm_per_deg,
+        }
     }
 
     /// The serial, or the file when the export gave none.

@@ -287,6 +287,39 @@ pub struct SecantRate {
     pub class: CharacteristicClass,
 }
 
+/// Upper limit on how much a free swing's period depends on its amplitude.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AmplitudeDependenceLimit {
+    /// Largest acceptable |period at large amplitude / period at small amplitude − 1|, %.
+    pub max_pct: f64,
+    /// Class of the characteristic.
+    pub class: CharacteristicClass,
+}
+
+/// What the drawing asks of the part in a free-swing (dynamic) test: the spring swings a
+/// known inertia after release, and the record of angle over time is analysed.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DynamicCharacteristics {
+    /// Dynamic rate κ·π/180 from the swing (κ = I·ω0²), N·mm/°; finding `dynamic_rate`.
+    #[serde(default)]
+    pub rate_nmm_per_deg: Option<Toleranced>,
+    /// Undamped natural frequency ω0/2π of the spring with the test inertia, Hz; finding `frequency`.
+    #[serde(default)]
+    pub frequency_hz: Option<Toleranced>,
+    /// Limit on the period's amplitude dependence; finding `amplitude_dependence`.
+    #[serde(default)]
+    pub amplitude_dependence: Option<AmplitudeDependenceLimit>,
+}
+
+impl DynamicCharacteristics {
+    /// True when no dynamic characteristic is named.
+    pub fn is_empty(&self) -> bool {
+        self.rate_nmm_per_deg.is_none() && self.frequency_hz.is_none() && self.amplitude_dependence.is_none()
+    }
+}
+
 /// Everything the drawing specifies for the part's behaviour on the rig.
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -309,6 +342,9 @@ pub struct Characteristics {
     /// Linearity limit.
     #[serde(default)]
     pub linearity: Option<LinearityLimit>,
+    /// Characteristics judged on free-swing (free-decay) tests.
+    #[serde(default)]
+    pub dynamic: Option<DynamicCharacteristics>,
 }
 
 /// Spring material.
@@ -373,6 +409,10 @@ pub struct TestSetup {
     /// Arbor diameter, mm.
     #[serde(default)]
     pub arbor_diameter_mm: Option<f64>,
+    /// The whole inertia the spring swings in a free-swing test (fixture and added mass),
+    /// kg·m², used when an export does not state its own `inertia_kgm2`.
+    #[serde(default)]
+    pub inertia_kgm2: Option<f64>,
 }
 
 fn default_window() -> [f64; 2] {
@@ -536,6 +576,27 @@ impl PartSpec {
                 return fail("characteristics.hysteresis.at_angles_deg", "name at least one angle".into());
             }
         }
+        if let Some(inertia) = self.test.inertia_kgm2 {
+            if !(inertia.is_finite() && inertia > 0.0) {
+                return fail("test.inertia_kgm2", format!("the inertia must be positive, found {inertia}"));
+            }
+        }
+        if let Some(dynamic) = &self.characteristics.dynamic {
+            if dynamic.is_empty() {
+                return fail(
+                    "characteristics.dynamic",
+                    "name at least one of `rate_nmm_per_deg`, `frequency_hz`, `amplitude_dependence`".into(),
+                );
+            }
+            if let Some(limit) = &dynamic.amplitude_dependence {
+                if !(limit.max_pct.is_finite() && limit.max_pct > 0.0) {
+                    return fail(
+                        "characteristics.dynamic.amplitude_dependence.max_pct",
+                        format!("the limit must be a percentage above zero, found {}", limit.max_pct),
+                    );
+                }
+            }
+        }
         Ok(())
     }
 
@@ -561,9 +622,38 @@ impl PartSpec {
         if let Some(linearity) = &c.linearity {
             out.push(("linearity".to_string(), linearity.class));
         }
+        if let Some(dynamic) = &c.dynamic {
+            if let Some(rate) = &dynamic.rate_nmm_per_deg {
+                out.push((DYNAMIC_RATE.to_string(), rate.class));
+            }
+            if let Some(frequency) = &dynamic.frequency_hz {
+                out.push((FREQUENCY.to_string(), frequency.class));
+            }
+            if let Some(limit) = &dynamic.amplitude_dependence {
+                out.push((AMPLITUDE_DEPENDENCE.to_string(), limit.class));
+            }
+        }
         out
     }
+
+    /// True when the spec names any characteristic a torque-curve test measures.
+    pub fn has_static_characteristics(&self) -> bool {
+        let c = &self.characteristics;
+        c.rate_nmm_per_deg.is_some()
+            || c.secant_rate.is_some()
+            || !c.torque_at.is_empty()
+            || c.free_angle_deg.is_some()
+            || c.hysteresis.is_some()
+            || c.linearity.is_some()
+    }
 }
+
+/// The characteristic name of the dynamic rate from a free swing.
+pub const DYNAMIC_RATE: &str = "dynamic_rate";
+/// The characteristic name of the natural frequency from a free swing.
+pub const FREQUENCY: &str = "frequency";
+/// The characteristic name of the period's amplitude dependence in a free swing.
+pub const AMPLITUDE_DEPENDENCE: &str = "amplitude_dependence";
 
 /// The characteristic name used for torque at an angle, e.g. `torque@45`.
 pub fn torque_label(angle_deg: f64) -> String {
@@ -614,6 +704,33 @@ sampling:
         assert_eq!(sampling.critical, ClassPlan::ZeroAcceptance);
         assert_eq!(sampling.level, "II");
         assert_eq!(spec.classes().len(), 5);
+    }
+
+    #[test]
+    fn dynamic_characteristics_load_additively_and_are_checked() {
+        let text = SPEC.replace(
+            "  linearity: { max_pct: 3, class: minor }\n",
+            "  linearity: { max_pct: 3, class: minor }\n  dynamic:\n    rate_nmm_per_deg: { nominal: 4.1, tolerance: \"±10%\", class: major }\n    frequency_hz: { nominal: 2.5, tolerance: \"±5%\", class: minor }\n    amplitude_dependence: { max_pct: 1.5, class: minor }\n",
+        )
+        .replace("  window: [0.2, 0.8]\n", "  window: [0.2, 0.8]\n  inertia_kgm2: 2.0e-3\n");
+        let spec = PartSpec::from_yaml("ts100.yaml", &text).unwrap();
+        let dynamic = spec.characteristics.dynamic.as_ref().unwrap();
+        assert_eq!(dynamic.frequency_hz.as_ref().unwrap().nominal, 2.5);
+        assert_eq!(spec.test.inertia_kgm2, Some(2.0e-3));
+        let names: Vec<String> = spec.classes().into_iter().map(|(n, _)| n).collect();
+        assert!(names.ends_with(&["dynamic_rate".into(), "frequency".into(), "amplitude_dependence".into()]));
+        assert!(spec.has_static_characteristics());
+
+        // A spec without the new fields still loads, with none of them.
+        let old = PartSpec::from_yaml("ts100.yaml", SPEC).unwrap();
+        assert!(old.characteristics.dynamic.is_none() && old.test.inertia_kgm2.is_none());
+
+        let empty = SPEC.replace("  linearity: { max_pct: 3, class: minor }\n", "  dynamic: {}\n");
+        let err = PartSpec::from_yaml("ts100.yaml", &empty).unwrap_err();
+        assert_eq!(err.field.as_deref(), Some("characteristics.dynamic"), "{err}");
+        let heavy = text.replace("inertia_kgm2: 2.0e-3", "inertia_kgm2: -1");
+        let err = PartSpec::from_yaml("ts100.yaml", &heavy).unwrap_err();
+        assert_eq!(err.field.as_deref(), Some("test.inertia_kgm2"), "{err}");
     }
 
     #[test]

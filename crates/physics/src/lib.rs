@@ -9,7 +9,8 @@
 //! (period, logarithmic decrement, damping ratio, torsion constant κ = I·ω0², dynamic rate,
 //! amplitude dependence of the period, dry-friction decay, the two-inertia method) —
 //! [`analyze_swing`], [`two_inertia`]. A record that cannot carry a number is refused with
-//! the reason, never given one.
+//! the reason, never given one. [`SwingAnalysis::metrics`] gives the figures a test record
+//! carries (`twistlot_model::SwingMetrics`).
 //!
 //! Not for: reading files or rig formats (the ingest crate turns exports into plain
 //! slices), judging results against a spec (stats), or printing. Everything here is a pure

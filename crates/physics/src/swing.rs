@@ -27,6 +27,7 @@ use std::f64::consts::PI;
 
 use serde::{Deserialize, Serialize};
 use thiserror::Error;
+use twistlot_model::SwingMetrics;
 
 use crate::fit::{fit_damped_sine, line, linear_part, parabola_vertex, weighted_line};
 
@@ -68,17 +69,8 @@ impl Default for SwingOptions {
     }
 }
 
-/// How the swing amplitude falls over the record.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "lowercase")]
-pub enum DecayShape {
-    /// By a constant ratio per swing: viscous (velocity-proportional) damping.
-    Exponential,
-    /// By a constant amount per swing: dry (Coulomb) friction.
-    Linear,
-    /// Too little decay, or too much scatter, to tell the two apart.
-    Undetermined,
-}
+/// How the swing amplitude falls over the record (typed in the model, where test records carry it).
+pub use twistlot_model::record::DecayShape;
 
 /// One peak of the swing.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
@@ -158,6 +150,31 @@ pub struct SwingAnalysis {
     pub peaks: Vec<SwingPeak>,
     /// What a reader should know about the numbers.
     pub notes: Vec<String>,
+}
+
+impl SwingAnalysis {
+    /// The figures a test record carries; `inertia_from` says where the inertia came from.
+    pub fn metrics(&self, inertia_from: Option<&str>) -> SwingMetrics {
+        SwingMetrics {
+            inertia_kgm2: self.inertia_kgm2,
+            inertia_from: self.inertia_kgm2.and(inertia_from).map(str::to_string),
+            period_s: self.period_s,
+            frequency_hz: self.frequency_hz,
+            natural_frequency_hz: self.natural_frequency_hz,
+            log_decrement: self.log_decrement,
+            damping_ratio: self.damping_ratio,
+            kappa_nmm_per_rad: self.kappa_nmm_per_rad,
+            rate_nmm_per_deg: self.rate_nmm_per_deg,
+            amplitude_dependence_pct: self.amplitude_dependence_pct,
+            amplitude_dependence_flagged: self.amplitude_dependence_flagged,
+            decay: self.decay,
+            friction_torque_nmm: self.friction_torque_nmm,
+            swings: self.swings,
+            initial_amplitude_deg: self.initial_amplitude_deg,
+            equilibrium_deg: self.equilibrium_deg,
+            notes: self.notes.clone(),
+        }
+    }
 }
 
 /// The two-inertia result: κ without knowing the fixture's own inertia.
@@ -1250,6 +1267,18 @@ mod tests {
         }
         assert_eq!(json["swings"], serde_json::json!(r.swings));
         assert_eq!(json["decay"], "exponential");
+    }
+
+    #[test]
+    fn the_record_carries_the_analysis_figures() {
+        let a = Analytic::new(500.0, 2.0e-3, 0.01);
+        let (t, y) = a.sample(16);
+        let r = analyze_swing(&t, &y, Some(a.inertia_kgm2), &opts()).unwrap();
+        let m = r.metrics(Some("export"));
+        assert_eq!((m.period_s, m.rate_nmm_per_deg, m.swings), (r.period_s, r.rate_nmm_per_deg, r.swings));
+        assert_eq!(m.inertia_from.as_deref(), Some("export"));
+        let without = analyze_swing(&t, &y, None, &opts()).unwrap().metrics(Some("export"));
+        assert_eq!((without.inertia_from, without.rate_nmm_per_deg), (None, None));
     }
 
     fn refuse(t: &[f64], y: &[f64]) -> SwingError {

@@ -1,14 +1,17 @@
 //! Evaluating exports: read each file, compute its curve metrics, judge it against its spec.
+//! A free-decay export (a swing test) is analysed and judged in [`crate::dynamic`] instead.
 //!
 //! Each file's frame is dropped on the worker thread as soon as its metrics are
 //! computed; the caller receives one [`TestRecord`] (and, when asked, a thinned copy of
 //! the curve for charts) per file, in file order, so memory holds one result row per
 //! test (DESIGN.md §8).
 
-use crate::plant::{SpecEntry, SpecLibrary};
+use crate::plant::{PhysicsConfig, SpecEntry, SpecLibrary};
 use std::path::PathBuf;
 use twistlot_ingest::{ingest_ordered, FileOutcome, FormatSet, IngestError, RejectKind};
-use twistlot_model::{CharacteristicClass, CurveData, Finding, TestRecord, TestStatus, Verdict};
+use twistlot_model::{
+    CharacteristicClass, CurveData, Finding, RecordKind, TestMetadata, TestRecord, TestStatus, Verdict,
+};
 use twistlot_stats::{curve_metrics, judge_with, CheckSet, MetricOptions};
 
 /// Where specs come from.
@@ -31,6 +34,8 @@ pub struct EvaluateOptions {
     pub rig_format: Option<String>,
     /// Keep a thinned copy of each curve with at most this many points (0: none), for charts.
     pub preview_points: usize,
+    /// The theoretical-rate band and the free-swing analysis settings.
+    pub physics: PhysicsConfig,
 }
 
 /// A thinned copy of a test's curve, for charts.
@@ -96,6 +101,10 @@ fn evaluate_one(
         Err(err) => return Evaluated::Rejected(err),
     };
     let file = outcome.path.display().to_string();
+    let (spec_entry, missing_spec) = find_spec(&export.metadata, specs);
+    if export.kind == RecordKind::FreeDecay {
+        return crate::dynamic::evaluate_decay(&export, file, spec_entry, missing_spec, options);
+    }
     let curve = match export.curve() {
         Ok(curve) => curve,
         Err(err) => {
@@ -107,11 +116,6 @@ fn evaluate_one(
         }
     };
     let meta = &export.metadata;
-    let spec_entry = match specs {
-        SpecSource::Fixed(entry) => Some(entry),
-        SpecSource::ByPart(library) => meta.part.as_deref().and_then(|p| library.get(p)),
-        SpecSource::None => None,
-    };
     let mut metric_options = match spec_entry {
         Some(entry) => {
             MetricOptions::from_spec(&entry.spec).with_check_angles(checks.checks(), Some(&entry.spec.part))
@@ -121,7 +125,7 @@ fn evaluate_one(
     if let Some(window) = options.window {
         metric_options.window = window;
     }
-    let metrics = match curve_metrics(&curve, &metric_options) {
+    let mut metrics = match curve_metrics(&curve, &metric_options) {
         Ok(metrics) => metrics,
         Err(err) => {
             return Evaluated::Rejected(
@@ -130,29 +134,17 @@ fn evaluate_one(
             )
         }
     };
-    let (verdict, findings) = match (spec_entry, specs) {
+    let (verdict, findings) = match (spec_entry, missing_spec) {
         (Some(entry), _) => {
             let judgement = judge_with(&metrics, &entry.spec, checks);
             (Some(judgement.verdict), judgement.findings)
         }
-        // A plant that has specs but none for this part: say so instead of passing it.
-        (None, SpecSource::ByPart(_)) => (
-            Some(Verdict::Invalid),
-            vec![Finding {
-                characteristic: "spec".into(),
-                class: CharacteristicClass::Critical,
-                value: None,
-                lower: None,
-                upper: None,
-                verdict: Verdict::Invalid,
-                message: match &meta.part {
-                    Some(part) => format!("no spec for part `{part}` in the plant's parts folder"),
-                    None => "the export names no part number, so no spec applies".into(),
-                },
-            }],
-        ),
-        (None, _) => (None, Vec::new()),
+        (None, Some(missing)) => (Some(Verdict::Invalid), vec![missing]),
+        (None, None) => (None, Vec::new()),
     };
+    let theory = spec_entry.and_then(|entry| {
+        crate::dynamic::theory(&entry.spec, metrics.rate_nmm_per_deg, &options.physics, &mut metrics.notes)
+    });
     let preview = (options.preview_points > 0).then(|| CurvePreview::thinned(&curve, options.preview_points));
     let record = TestRecord {
         test_id: meta.test_id(),
@@ -168,9 +160,41 @@ fn evaluate_one(
         spec_file: spec_entry.map(|e| e.path.display().to_string()),
         spec_revision: spec_entry.map(|e| e.spec.revision.clone()),
         metrics,
+        swing: None,
+        theory,
         verdict,
         findings,
         status: TestStatus::Counted,
     };
     Evaluated::Test { record: Box::new(record), preview }
+}
+
+/// The spec that applies to an export, or, when a plant that has specs has none for it,
+/// the finding that says so (instead of passing the test unjudged).
+pub(crate) fn find_spec<'a>(
+    meta: &TestMetadata,
+    specs: SpecSource<'a>,
+) -> (Option<&'a SpecEntry>, Option<Finding>) {
+    match specs {
+        SpecSource::Fixed(entry) => (Some(entry), None),
+        SpecSource::ByPart(library) => match meta.part.as_deref().and_then(|p| library.get(p)) {
+            Some(entry) => (Some(entry), None),
+            None => (
+                None,
+                Some(Finding {
+                    characteristic: "spec".into(),
+                    class: CharacteristicClass::Critical,
+                    value: None,
+                    lower: None,
+                    upper: None,
+                    verdict: Verdict::Invalid,
+                    message: match &meta.part {
+                        Some(part) => format!("no spec for part `{part}` in the plant's parts folder"),
+                        None => "the export names no part number, so no spec applies".into(),
+                    },
+                }),
+            ),
+        },
+        SpecSource::None => (None, None),
+    }
 }

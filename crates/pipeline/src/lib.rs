@@ -3,7 +3,9 @@
 //! For: opening a plant for any command ([`open`]: config, plugins built in and found,
 //! rig formats, checks, specs, sampling schemes, templates, history folder), evaluating
 //! exports against their specs ([`evaluate`]: each export streams through the evaluator
-//! and leaves one [`twistlot_model::TestRecord`]), running a shift ([`shift`]) that
+//! and leaves one [`twistlot_model::TestRecord`]; a free-decay export is analysed as a
+//! free swing and judged on the spec's dynamic characteristics, and every measured rate
+//! is set beside the drawing's theoretical one), running a shift ([`shift`]) that
 //! pushes every test and decided lot into sinks ([`sink`], [`outputs`]), and keeping each
 //! part's switching record between shifts ([`switching`]).
 //!
@@ -12,6 +14,7 @@
 //! Main types: [`OpenPlant`], [`OpenOptions`], [`PluginCatalog`], [`Plant`],
 //! [`SpecLibrary`], [`ShiftSink`], [`SinkSet`], [`SwitchingRecord`].
 
+mod dynamic;
 pub mod evaluate;
 pub mod open;
 pub mod outputs;
@@ -23,7 +26,7 @@ pub mod switching;
 
 pub use evaluate::{evaluate_each, CurvePreview, EvaluateOptions, Evaluated, SpecSource};
 pub use open::{find_plant_file, OpenError, OpenOptions, OpenPlant};
-pub use plant::{Plant, PlantError, SpecEntry, SpecLibrary};
+pub use plant::{PhysicsConfig, Plant, PlantError, SpecEntry, SpecLibrary};
 pub use plugins::{PluginCatalog, PluginEntry, PluginError, PluginSource, Schemes};
 pub use shift::{run_shift, ShiftError};
 pub use sink::{FailurePolicy, LotEvent, ShiftSink, ShiftStart, SinkError, SinkSet};

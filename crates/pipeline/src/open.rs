@@ -6,7 +6,7 @@
 //! the loaded [`Plant`] is never changed afterwards and every command validates the
 //! same things in the same order.
 
-use crate::plant::{Plant, PlantError, SpecLibrary};
+use crate::plant::{PhysicsConfig, Plant, PlantError, SpecLibrary};
 use crate::plugins::{PluginCatalog, PluginError, Schemes};
 use std::path::{Path, PathBuf};
 use twistlot_ingest::FormatSet;
@@ -147,6 +147,11 @@ impl OpenPlant {
     pub fn renderer(&self) -> Result<Renderer, OpenError> {
         Renderer::new(self.config.as_ref().and_then(|c| c.templates_dir.as_deref()))
             .map_err(OpenError::Templates)
+    }
+
+    /// The plant's physics settings (theoretical-rate band, free-swing analysis), or the defaults.
+    pub fn physics(&self) -> PhysicsConfig {
+        self.config.as_ref().map(|c| c.physics.clone()).unwrap_or_default()
     }
 
     /// The sink plugins the plant config names, with the folders they run in.

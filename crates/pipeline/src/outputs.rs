@@ -121,9 +121,15 @@ fn lot_charts(event: &LotEvent<'_>, curves_per_chart: usize) -> report::Charts {
     let record = event.record;
     let spec = event.spec.map(|e| &e.spec);
     let counted = || event.tests.iter().filter(|t| t.status.is_counted());
-    let rates: Vec<f64> = counted().filter_map(|t| t.metrics.rate_nmm_per_deg).collect();
-    let rate_spec = spec.and_then(|s| s.characteristics.rate_nmm_per_deg.as_ref());
-    let rate_stats = record.statistics.iter().find(|s| s.characteristic == "rate");
+    // A swing-tested part's rate is its dynamic rate, with the dynamic tolerance.
+    let rates: Vec<f64> = counted().filter_map(|t| t.measured_rate_nmm_per_deg()).collect();
+    let c = spec.map(|s| &s.characteristics);
+    let rate_spec = c.and_then(|c| {
+        c.rate_nmm_per_deg.as_ref().or_else(|| c.dynamic.as_ref().and_then(|d| d.rate_nmm_per_deg.as_ref()))
+    });
+    let rate_stats = record.statistics.iter().find(|s| s.characteristic == "rate").or_else(|| {
+        record.statistics.iter().find(|s| s.characteristic == twistlot_model::spec::DYNAMIC_RATE)
+    });
     // A fitted normal curve only where the normality test ran and did not reject it.
     let fit = rate_stats
         .filter(|s| s.capability.normal_curve)

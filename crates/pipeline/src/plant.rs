@@ -32,6 +32,37 @@ struct PlantFile {
     capability: CapabilityConfig,
     #[serde(default)]
     switching: SwitchingConfig,
+    #[serde(default)]
+    physics: PhysicsConfig,
+}
+
+/// The plant's settings for the spring physics: how far a measured rate may sit from the
+/// drawing's theoretical one before the lot carries a caution, and the free-swing analysis.
+#[derive(Debug, Clone, PartialEq, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct PhysicsConfig {
+    /// Band `[lo, hi]` the measured/theory rate ratio is expected in; outside it the lot's
+    /// grounds carry a caution, never a verdict. Default 0.85–1.15
+    /// ([`twistlot_stats::DEFAULT_RATE_BAND`], a starting point, not a published limit).
+    #[serde(default = "default_rate_band")]
+    pub rate_theory_band: [f64; 2],
+    /// Settings of the free-swing analysis: `min_swings`, `amplitude_limit_pct`,
+    /// `max_damping_ratio`, `max_equilibrium_drift_pct` (defaults in `twistlot_physics::SwingOptions`).
+    #[serde(default)]
+    pub swing: twistlot_physics::SwingOptions,
+}
+
+fn default_rate_band() -> [f64; 2] {
+    twistlot_stats::DEFAULT_RATE_BAND
+}
+
+impl Default for PhysicsConfig {
+    fn default() -> Self {
+        PhysicsConfig {
+            rate_theory_band: default_rate_band(),
+            swing: twistlot_physics::SwingOptions::default(),
+        }
+    }
 }
 
 /// The plant's answers to the conditions MIL-STD-105E §8.3 asks for beyond the lot counts.
@@ -108,6 +139,8 @@ pub struct Plant {
     pub capability: CapabilityConfig,
     /// Conditions for reduced inspection.
     pub switching: SwitchingConfig,
+    /// Theoretical-rate band and free-swing analysis settings.
+    pub physics: PhysicsConfig,
 }
 
 /// Why the plant config or a spec did not load.
@@ -160,6 +193,12 @@ impl Plant {
             )
             .into());
         }
+        if let Err(message) = twistlot_stats::validate_band(file.physics.rate_theory_band) {
+            return Err(DocumentError::at_field(&origin, &text, "physics.rate_theory_band", message).into());
+        }
+        if let Err(err) = file.physics.swing.validate() {
+            return Err(DocumentError::at_field(&origin, &text, "physics.swing", err.to_string()).into());
+        }
         Ok(Plant {
             path: path.to_path_buf(),
             name: file.plant,
@@ -174,6 +213,7 @@ impl Plant {
             variables_non_normal: file.variables_non_normal,
             capability: file.capability,
             switching: file.switching,
+            physics: file.physics,
         })
     }
 }

@@ -16,6 +16,7 @@ use twistlot_model::{DocumentError, Manifest, PluginKind};
 /// The declarative plugins that ship inside the binary: (name under `plugins/`, text).
 pub const BUILT_IN: &[(&str, &str)] = &[
     ("rig-formats/native.yaml", include_str!("../../../plugins/rig-formats/native.yaml")),
+    ("rig-formats/native-decay.yaml", include_str!("../../../plugins/rig-formats/native-decay.yaml")),
     ("rig-formats/korvel-tab.yaml", include_str!("../../../plugins/rig-formats/korvel-tab.yaml")),
     ("rig-formats/ostrel-semi.yaml", include_str!("../../../plugins/rig-formats/ostrel-semi.yaml")),
     ("rig-formats/pellam-fixed.yaml", include_str!("../../../plugins/rig-formats/pellam-fixed.yaml")),
@@ -385,7 +386,7 @@ mod tests {
         let catalog = PluginCatalog::discover(&[]).unwrap();
         assert!(catalog.errors().next().is_none(), "{:?}", catalog.errors().collect::<Vec<_>>());
         let formats = catalog.rig_formats().unwrap();
-        for name in ["native", "korvel-tab", "ostrel-semi", "pellam-fixed"] {
+        for name in ["native", "native-decay", "korvel-tab", "ostrel-semi", "pellam-fixed"] {
             assert!(formats.by_name(name).is_some(), "{name} missing");
         }
         assert!(catalog.sampling_schemes().unwrap().contains_key("mil-std-105e"));

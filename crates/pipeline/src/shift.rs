@@ -26,7 +26,7 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use twistlot_ingest::expand_inputs;
 use twistlot_model::record::start_seconds;
-use twistlot_model::spec::torque_label;
+use twistlot_model::spec::{torque_label, DYNAMIC_RATE, FREQUENCY};
 use twistlot_model::{
     CharacteristicStats, DocumentError, GroundTopic, Limits, ListedLot, LotDecision, LotList, LotRecord,
     PlanSummary, RateSummary, RejectedFile, ShiftRecord, TestRecord, Verdict,
@@ -165,7 +165,12 @@ pub fn collect(
         files_total: (total + missing.len()) as u64,
         ..CollectedTests::default()
     };
-    let options = EvaluateOptions { window: None, rig_format: None, preview_points: PREVIEW_POINTS };
+    let options = EvaluateOptions {
+        window: None,
+        rig_format: None,
+        preview_points: PREVIEW_POINTS,
+        physics: plant.physics(),
+    };
     let mut done = 0;
     evaluate_each(
         &files,
@@ -315,6 +320,7 @@ pub fn decide_and_push(
                 decide_lot(&input, |name| plant.schemes.get(name).map(|s| s.as_ref()))
             }
         };
+        crate::dynamic::note_theory(&mut decision, &counted);
         let entry = SwitchingEntry::for_decision(&listed.part, &listed.lot, shift, &decision);
         let next = standings.feed(&listed.part, &entry, &mut decision);
         let subgroups =
@@ -338,9 +344,11 @@ pub fn decide_and_push(
                 severity,
             }),
             next_severity: next.as_ref().map(PartStanding::inspection_state),
+            // A part tested only by free swing has its dynamic rate as its rate.
             rate: statistics
                 .iter()
                 .find(|s| s.characteristic == "rate")
+                .or_else(|| statistics.iter().find(|s| s.characteristic == DYNAMIC_RATE))
                 .map(|s| RateSummary::of(&s.capability)),
             grounds: decision.grounds.iter().map(|g| g.text.clone()).collect(),
             report_html: format!("lots/{lot_file}.html"),
@@ -389,8 +397,9 @@ fn variables_normality(spec: &twistlot_model::PartSpec, tests: &[&TestRecord]) -
     anderson_darling(&values).map(|n| n.p_value)
 }
 
-/// A lot's statistics of the rate and of every toleranced free angle and torque, in
-/// start-time order (then serial), never in file order.
+/// A lot's statistics of the rate, of every toleranced free angle and torque, and of the
+/// dynamic rate and frequency of swing tests, in start-time order (then serial), never in
+/// file order.
 fn lot_statistics(
     spec: &twistlot_model::PartSpec,
     tests: &[&TestRecord],
@@ -429,6 +438,16 @@ fn lot_statistics(
         push(torque_label(torque.angle_deg), "N·mm", torque.limits(), &|t| {
             t.metrics.torque_nmm_at.get(&key).copied()
         });
+    }
+    if let Some(dynamic) = &spec.characteristics.dynamic {
+        if let Some(rate) = &dynamic.rate_nmm_per_deg {
+            push(DYNAMIC_RATE.into(), "N·mm/°", rate.limits(), &|t| t.swing.as_ref()?.rate_nmm_per_deg);
+        }
+        if let Some(frequency) = &dynamic.frequency_hz {
+            push(FREQUENCY.into(), "Hz", frequency.limits(), &|t| {
+                t.swing.as_ref().map(|s| s.natural_frequency_hz)
+            });
+        }
     }
     statistics
 }
@@ -520,6 +539,8 @@ mod tests {
                 }],
             },
             status: TestStatus::Counted,
+            swing: None,
+            theory: None,
         }
     }
 

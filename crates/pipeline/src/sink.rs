@@ -248,6 +248,8 @@ mod tests {
             spec_file: None,
             spec_revision: None,
             metrics: Default::default(),
+            swing: None,
+            theory: None,
             verdict: None,
             findings: Vec::new(),
             status: Default::default(),

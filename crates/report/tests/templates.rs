@@ -38,6 +38,8 @@ fn test(serial: &str, file: &str, verdict: Verdict, message: &str) -> TestRecord
         spec_file: Some("specs/TS-4410-C.yaml".into()),
         spec_revision: Some("C".into()),
         metrics: CurveMetrics { rate_nmm_per_deg: Some(12.9), max_torque_nmm: 1000.0, ..Default::default() },
+        swing: None,
+        theory: None,
         verdict: Some(verdict),
         findings: vec![Finding {
             characteristic: "rate".into(),
@@ -314,6 +316,12 @@ fn tests_csv_quotes_fields_and_leaves_missing_values_empty() {
     first.operator = Some(EVIL.into());
     first.rig = None;
     first.metrics.rate_nmm_per_deg = Some(12.5);
+    first.theory = Some(twistlot_model::TheoryRate {
+        rate_nmm_per_deg: 12.02,
+        ratio: Some(1.04),
+        band: [0.85, 1.15],
+        outside_band: false,
+    });
     first.findings.push(Finding {
         characteristic: "torque@45".into(),
         verdict: Verdict::Pass,
@@ -337,18 +345,18 @@ fn tests_csv_quotes_fields_and_leaves_missing_values_empty() {
     assert_eq!(lines.len(), 3, "{csv_text}");
     assert_eq!(
         lines[0],
-        "test_id,file,serial,part,lot,rig,operator,rate_nmm_per_deg,free_angle_deg,max_torque_nmm,verdict,findings,status"
+        "test_id,file,serial,part,lot,rig,operator,rate_nmm_per_deg,free_angle_deg,max_torque_nmm,verdict,findings,status,record,dynamic_rate_nmm_per_deg,natural_frequency_hz,theory_rate_nmm_per_deg,rate_to_theory"
     );
     assert_eq!(
         lines[1],
-        "\"SN \"\"7\"\"-0000\",\"a,b.csv\",\"SN \"\"7\"\"\",TS-4410,L-0517,,<script>alert(1)</script>,12.5,,1000.0,fail,rate: 12.5 > 12.4,counted"
+        "\"SN \"\"7\"\"-0000\",\"a,b.csv\",\"SN \"\"7\"\"\",TS-4410,L-0517,,<script>alert(1)</script>,12.5,,1000.0,fail,rate: 12.5 > 12.4,counted,torque-curve,,,12.02,1.04"
     );
-    assert_eq!(lines[2], "x-0000,c.csv,,,,,,,,0.0,invalid,,superseded");
-    // An independent reader sees 13 fields per row and the original text.
+    assert_eq!(lines[2], "x-0000,c.csv,,,,,,,,0.0,invalid,,superseded,torque-curve,,,,");
+    // An independent reader sees 18 fields per row and the original text.
     let mut reader = csv::Reader::from_reader(csv_text.as_bytes());
     let records: Vec<csv::StringRecord> = reader.records().map(Result::unwrap).collect();
     assert_eq!(records.len(), 2);
-    assert!(records.iter().all(|r| r.len() == 13));
+    assert!(records.iter().all(|r| r.len() == 18));
     assert_eq!(&records[0][1], "a,b.csv");
     assert_eq!(&records[0][2], "SN \"7\"");
 }

@@ -176,6 +176,8 @@ pub fn characteristic_limits(spec: &PartSpec, characteristic: &str) -> Option<Li
     match characteristic {
         "rate" | "rate_nmm_per_deg" => c.rate_nmm_per_deg.as_ref().map(|r| r.limits()),
         "free_angle" | "free_angle_deg" => c.free_angle_deg.as_ref().map(|f| f.limits()),
+        "dynamic_rate" => c.dynamic.as_ref()?.rate_nmm_per_deg.as_ref().map(|r| r.limits()),
+        "frequency" => c.dynamic.as_ref()?.frequency_hz.as_ref().map(|f| f.limits()),
         other => c.torque_at.iter().find(|t| torque_label(t.angle_deg) == other).map(|t| t.limits()),
     }
 }
@@ -186,6 +188,8 @@ pub fn characteristic_value(test: &TestRecord, characteristic: &str) -> Option<f
     match characteristic {
         "rate" | "rate_nmm_per_deg" => m.rate_nmm_per_deg,
         "free_angle" | "free_angle_deg" => m.free_angle_deg,
+        "dynamic_rate" => test.swing.as_ref()?.rate_nmm_per_deg,
+        "frequency" => test.swing.as_ref().map(|s| s.natural_frequency_hz),
         other => other
             .strip_prefix("torque@")
             .and_then(|angle| angle.parse::<f64>().ok())
@@ -615,10 +619,51 @@ mod tests {
             spec_file: None,
             spec_revision: None,
             metrics: CurveMetrics { rate_nmm_per_deg: Some(4.0), ..CurveMetrics::default() },
+            swing: None,
+            theory: None,
             verdict: Some(verdict),
             findings,
             status: TestStatus::Counted,
         }
+    }
+
+    #[test]
+    fn a_variables_plan_can_name_the_dynamic_rate_or_frequency_of_a_swing() {
+        let text = "part: P-2\nrevision: A\ncustomer: invented\nmaterial: { name: wire, modulus_n_per_mm2: 206000 }\n\
+                    geometry: { wire_diameter_mm: 0.5, mean_diameter_mm: 6.0, body_coils: 8, leg_lengths_mm: [10, 10], wind: left }\n\
+                    test: { max_angle_deg: 20 }\n\
+                    characteristics:\n  dynamic:\n    rate_nmm_per_deg: { nominal: 0.07, tolerance: \"±10%\", class: major }\n    frequency_hz: { nominal: 2.0, tolerance: 0.1, class: minor }\n";
+        let spec = PartSpec::from_yaml("p2.yaml", text).unwrap();
+        // Common practice, no published source: ±10 % of 0.07 and ±0.1 around 2.0.
+        let rate = characteristic_limits(&spec, "dynamic_rate").unwrap();
+        assert!((rate.lower.unwrap() - 0.063).abs() < 1e-12 && (rate.upper.unwrap() - 0.077).abs() < 1e-12);
+        assert_eq!(
+            characteristic_limits(&spec, "frequency"),
+            Some(Limits { lower: Some(1.9), upper: Some(2.1) })
+        );
+        let mut swung = test(1, Verdict::Pass, &[]);
+        assert_eq!(characteristic_value(&swung, "dynamic_rate"), None, "a torque curve has no dynamic rate");
+        swung.swing = Some(twistlot_model::SwingMetrics {
+            inertia_kgm2: Some(2.5e-5),
+            inertia_from: Some("export".into()),
+            period_s: 0.5,
+            frequency_hz: 2.0,
+            natural_frequency_hz: 2.001,
+            log_decrement: 0.06,
+            damping_ratio: 0.01,
+            kappa_nmm_per_rad: Some(4.0),
+            rate_nmm_per_deg: Some(0.0698),
+            amplitude_dependence_pct: 0.1,
+            amplitude_dependence_flagged: false,
+            decay: twistlot_model::DecayShape::Exponential,
+            friction_torque_nmm: None,
+            swings: 10,
+            initial_amplitude_deg: 15.0,
+            equilibrium_deg: 0.0,
+            notes: Vec::new(),
+        });
+        assert_eq!(characteristic_value(&swung, "dynamic_rate"), Some(0.0698));
+        assert_eq!(characteristic_value(&swung, "frequency"), Some(2.001));
     }
 
     fn tests_with(n: usize, major_fails: usize) -> Vec<TestRecord> {

@@ -129,6 +129,22 @@ pub fn judge_with(metrics: &CurveMetrics, spec: &PartSpec, checks: &CheckSet) ->
     }
 
     findings.extend(checks.evaluate(metrics, spec));
+    // A part the drawing judges only by free swing gives a torque curve nothing to pass on.
+    if findings.is_empty() && spec.characteristics.dynamic.is_some() {
+        findings.push(Finding {
+            characteristic: "static".into(),
+            class: CharacteristicClass::Critical,
+            value: None,
+            lower: None,
+            upper: None,
+            verdict: Verdict::Invalid,
+            message: format!(
+                "the spec for `{}` names only dynamic (free-swing) characteristics, so a torque curve cannot \
+                 be judged against it",
+                spec.part
+            ),
+        });
+    }
     Judgement { verdict: Verdict::combine(findings.iter().map(|f| f.verdict)), findings }
 }
 
@@ -163,7 +179,7 @@ fn with_unit(value: f64, unit: &str) -> String {
 }
 
 /// One finding of a value against limits; `Err` carries why there is no value.
-fn limit_finding(
+pub(crate) fn limit_finding(
     characteristic: &str,
     class: CharacteristicClass,
     label: &str,

@@ -3,10 +3,12 @@
 //! A plan (YAML) names the rigs and their formats, and per lot the part, how many
 //! parts are tested, how much the wire diameter varies, and which parts carry a
 //! defect. Each part's rate follows its wire diameter (rate ∝ d⁴ at fixed coil
-//! geometry, EN 13906-3's rate formula), so a lot's rate spread is physical.
+//! geometry, EN 13906-3's rate formula), so a lot's rate spread is physical. A lot with
+//! a `swing` section is tested by free swing instead: its exports are free-decay records.
 
+use crate::decay::{DecayError, DecayModel};
 use crate::spring::SpringModel;
-use crate::writer::{write_gantry_json, write_layout, WriteError, WriteStyle};
+use crate::writer::{write_decay_layout, write_gantry_json, write_layout, WriteError, WriteStyle};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Normal, StandardNormal};
@@ -45,6 +47,18 @@ pub enum Defect {
         /// Relative change, e.g. -0.12.
         share: f64,
     },
+    /// Swing lots only: the restoring torque stiffens with angle, κ·(θ + ε·θ³), so the
+    /// period shortens at large amplitude (coil contact, a non-linear spring).
+    Stiffening {
+        /// ε, per rad².
+        per_rad2: f64,
+    },
+    /// Swing lots only: dry (Coulomb) friction in the fixture or between coils, so the
+    /// amplitude falls linearly instead of exponentially.
+    DryFriction {
+        /// Friction torque, N·mm.
+        torque_nmm: f64,
+    },
 }
 
 /// A file that is broken on purpose, so the demo shows rejections.
@@ -77,6 +91,29 @@ pub struct PlantedBreakage {
     pub part_index: usize,
     /// How the file is broken.
     pub breakage: Breakage,
+}
+
+/// How a lot's parts are tested by free swing: each spring turns a known inertia, is
+/// released from rest, and the bench records angle against time (a free-decay export in
+/// the rig's `record: free-decay` layout). The spring's torsion constant follows the
+/// spec's dynamic rate (else its static rate) and the part's wire diameter, as for
+/// static lots.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DemoSwing {
+    /// The whole swinging inertia, written into each export, kg·m².
+    pub inertia_kgm2: f64,
+    /// Viscous damping ratio ζ.
+    pub damping_ratio: f64,
+    /// Release angle from the equilibrium, degrees.
+    pub release_deg: f64,
+    /// Record length, s.
+    pub duration_s: f64,
+    /// Sample rate, Hz.
+    pub sample_rate_hz: f64,
+    /// Standard deviation of the angle noise, degrees.
+    #[serde(default)]
+    pub noise_deg: f64,
 }
 
 /// A rig of the demo plant.
@@ -119,6 +156,10 @@ pub struct DemoLot {
     /// Broken files.
     #[serde(default)]
     pub broken: Vec<PlantedBreakage>,
+    /// Test the lot by free swing instead of on a torque rig (the rig's format must be a
+    /// `record: free-decay` layout).
+    #[serde(default)]
+    pub swing: Option<DemoSwing>,
 }
 
 /// The demo shift plan.
@@ -186,6 +227,15 @@ pub enum DemoError {
     /// The bench data set was asked for a shape it cannot have.
     #[error("{0}")]
     BenchShape(String),
+    /// A swing lot's model cannot be simulated.
+    #[error("lot `{lot}`: {source}")]
+    Decay {
+        /// Lot.
+        lot: String,
+        /// Why.
+        #[source]
+        source: DecayError,
+    },
 }
 
 /// File extension each demo format uses.
@@ -232,6 +282,10 @@ pub fn generate_shift(
             lot: lot.lot.clone(),
             part: format!("{} (wire_sd_pct must be ≥ 0)", lot.part),
         })?;
+        if let Some(swing) = &lot.swing {
+            files.extend(swing_lot(plan, lot, rig, spec, swing, &wire, formats, &mut rng)?);
+            continue;
+        }
         for index in 1..=lot.tests {
             let serial = format!("{}-{:03}", lot.lot, index);
             let diameter_ratio: f64 = wire.sample(&mut rng);
@@ -259,18 +313,12 @@ pub fn generate_shift(
                         model.bind_stiffening_nmm_per_deg2 = model.rate_nmm_per_deg * 0.08;
                     }
                     Defect::RateOff { share } => model.rate_nmm_per_deg *= 1.0 + share,
+                    // Swing defects: a torque rig's curve does not show them this way.
+                    Defect::Stiffening { .. } | Defect::DryFriction { .. } => {}
                 }
             }
             let curve = model.simulate(&mut rng);
-            let minute = index * 3;
-            let metadata = vec![
-                ("serial", serial.clone()),
-                ("part", lot.part.clone()),
-                ("lot", lot.lot.clone()),
-                ("rig", rig.name.clone()),
-                ("operator", rig.operator.clone()),
-                ("started", format!("{}T{:02}:{:02}", plan.date, 14 + minute / 60, minute % 60)),
-            ];
+            let metadata = test_metadata(plan, lot, rig, &serial, index);
             let mut bytes = if rig.format == "gantry-json" {
                 write_gantry_json(&metadata, &curve)
             } else {
@@ -290,6 +338,89 @@ pub fn generate_shift(
         }
     }
     files.push(GeneratedFile { relative_path: "lots.yaml".into(), bytes: lot_list.into_bytes() });
+    Ok(files)
+}
+
+/// The metadata every demo export carries: serial, part, lot, rig, operator, start time.
+fn test_metadata(
+    plan: &DemoPlan,
+    lot: &DemoLot,
+    rig: &DemoRig,
+    serial: &str,
+    index: usize,
+) -> Vec<(&'static str, String)> {
+    let minute = index * 3;
+    vec![
+        ("serial", serial.to_string()),
+        ("part", lot.part.clone()),
+        ("lot", lot.lot.clone()),
+        ("rig", rig.name.clone()),
+        ("operator", rig.operator.clone()),
+        ("started", format!("{}T{:02}:{:02}", plan.date, 14 + minute / 60, minute % 60)),
+    ]
+}
+
+/// The free-decay exports of a lot tested by free swing.
+#[allow(clippy::too_many_arguments)]
+fn swing_lot(
+    plan: &DemoPlan,
+    lot: &DemoLot,
+    rig: &DemoRig,
+    spec: &PartSpec,
+    swing: &DemoSwing,
+    wire: &Normal<f64>,
+    formats: &BTreeMap<String, RigFormatManifest>,
+    rng: &mut ChaCha8Rng,
+) -> Result<Vec<GeneratedFile>, DemoError> {
+    let manifest = formats
+        .get(&rig.format)
+        .ok_or_else(|| DemoError::UnknownFormat { rig: rig.name.clone(), format: rig.format.clone() })?;
+    let c = &spec.characteristics;
+    let nominal_rate = c
+        .dynamic
+        .as_ref()
+        .and_then(|d| d.rate_nmm_per_deg.as_ref())
+        .or(c.rate_nmm_per_deg.as_ref())
+        .map(|r| r.nominal)
+        .unwrap_or(1.0);
+    let mut files = Vec::new();
+    for index in 1..=lot.tests {
+        let serial = format!("{}-{:03}", lot.lot, index);
+        let diameter_ratio: f64 = wire.sample(rng);
+        let mut model = DecayModel {
+            damping_ratio: swing.damping_ratio,
+            equilibrium_deg: FREE_ANGLE_SD_DEG * rng.sample::<f64, _>(StandardNormal),
+            release_deg: swing.release_deg,
+            duration_s: swing.duration_s,
+            sample_rate_hz: swing.sample_rate_hz,
+            noise_deg: swing.noise_deg,
+            ..DecayModel::linear(nominal_rate.to_degrees() * diameter_ratio.powi(4), swing.inertia_kgm2)
+        };
+        for planted in lot.defects.iter().filter(|d| d.part_index == index) {
+            match planted.defect {
+                Defect::RateOff { share } => model.kappa_nmm_per_rad *= 1.0 + share,
+                Defect::Stiffening { per_rad2 } => model.stiffening_per_rad2 = per_rad2,
+                Defect::DryFriction { torque_nmm } => model.friction_torque_nmm = torque_nmm,
+                Defect::FreeAngleOff { by_deg } => model.equilibrium_deg += by_deg,
+                // Torque-rig defects have no meaning for a swing.
+                Defect::HighFriction | Defect::StopsShort { .. } | Defect::CoilBind { .. } => {}
+            }
+        }
+        let record =
+            model.simulate(rng.gen()).map_err(|source| DemoError::Decay { lot: lot.lot.clone(), source })?;
+        let mut metadata = test_metadata(plan, lot, rig, &serial, index);
+        metadata.push(("record", "free-decay".to_string()));
+        metadata.push(("inertia_kgm2", format!("{}", swing.inertia_kgm2)));
+        let mut bytes =
+            write_decay_layout(manifest, &WriteStyle::for_format(&rig.format), &metadata, &record)?;
+        for broken in lot.broken.iter().filter(|b| b.part_index == index) {
+            bytes = break_file(bytes, broken.breakage);
+        }
+        files.push(GeneratedFile {
+            relative_path: format!("{}/{}.{}", rig.name.to_lowercase(), serial, extension(&rig.format)),
+            bytes,
+        });
+    }
     Ok(files)
 }
 

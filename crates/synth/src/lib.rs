@@ -6,10 +6,12 @@
 //!
 //! Not for: anything a verdict rests on. The data are invented; the generator
 //! knows the physics only well enough to make curves look like a rig's (linear
-//! law, friction loop, slack, noise, set, coil bind).
+//! law, friction loop, slack, noise, set, coil bind; for free swings, viscous damping,
+//! a stiffening term and dry friction).
 //!
-//! Main types: [`SpringModel`] (one simulated test), [`WriteStyle`] and
-//! [`write_layout`] (any declarative layout, from its manifest), [`DemoPlan`] and
+//! Main types: [`SpringModel`] (one simulated test), [`DecayModel`] (one simulated
+//! free swing), [`WriteStyle`] and [`write_layout`] / [`write_decay_layout`] (any
+//! declarative layout, from its manifest), [`DemoPlan`] and
 //! [`generate_shift`] (a whole shift), [`generate_bench`].
 
 pub mod decay;
@@ -20,4 +22,6 @@ pub mod writer;
 pub use decay::{DecayError, DecayModel, DecayRecord};
 pub use demo::{generate_bench, generate_shift, DemoError, DemoPlan, GeneratedFile};
 pub use spring::SpringModel;
-pub use writer::{printed_resolution, write_gantry_json, write_layout, WriteError, WriteStyle};
+pub use writer::{
+    printed_resolution, write_decay_layout, write_gantry_json, write_layout, WriteError, WriteStyle,
+};

@@ -5,9 +5,10 @@
 //! so a round trip through every shipped layout checks the reader against the
 //! manifest rather than against a second hand-written description.
 
+use crate::decay::DecayRecord;
 use std::fmt::Write as _;
 use twistlot_model::plugin::{Delimiter, Layout, RigFormatManifest, TextEncoding, UnitSource};
-use twistlot_model::{AngleUnit, CurveData, Stroke, TorqueUnit};
+use twistlot_model::{AngleUnit, CurveData, RecordKind, Stroke, TorqueUnit};
 
 /// Canonical resolution the writer prints: 0.001° of angle and 0.001 N·mm of torque.
 pub const RESOLUTION_DEG: f64 = 0.001;
@@ -23,6 +24,9 @@ pub enum WriteError {
     /// A unit the writer cannot resolve.
     #[error("rig format `{0}`: {1}")]
     Unit(String, String),
+    /// A free-decay record asked of a format of another kind.
+    #[error("rig format `{0}` holds {1} records, not free decays")]
+    Kind(String, RecordKind),
 }
 
 /// Decimal places needed to print `resolution` (in canonical units) in a unit of `factor` canonical units.
@@ -71,8 +75,8 @@ fn chosen_units(
         UnitSource::Fixed(unit) => unit.parse().map_err(unit_error)?,
         _ => style.angle_unit,
     };
-    let torque = match &layout.columns.torque.unit {
-        UnitSource::Fixed(unit) => unit.parse().map_err(unit_error)?,
+    let torque = match layout.columns.torque.as_ref().map(|t| &t.unit) {
+        Some(UnitSource::Fixed(unit)) => unit.parse().map_err(unit_error)?,
         _ => style.torque_unit,
     };
     Ok((angle, torque))
@@ -94,10 +98,30 @@ pub fn printed_resolution(
     ))
 }
 
+/// Writes a free-decay record with `metadata` (canonical key → value; add `inertia_kgm2`)
+/// in a `record: free-decay` manifest's layout: time and angle columns, no torque.
+pub fn write_decay_layout(
+    manifest: &RigFormatManifest,
+    style: &WriteStyle,
+    metadata: &[(&str, String)],
+    record: &DecayRecord,
+) -> Result<Vec<u8>, WriteError> {
+    if manifest.record != RecordKind::FreeDecay {
+        return Err(WriteError::Kind(manifest.name.clone(), manifest.record));
+    }
+    let curve = CurveData {
+        angle_deg: record.angle_deg.clone(),
+        time_s: Some(record.time_s.clone()),
+        ..CurveData::default()
+    };
+    write_layout(manifest, style, metadata, &curve)
+}
+
 /// Writes `curve` with `metadata` (canonical key → value) in the manifest's layout.
 ///
 /// Stroke and cycle columns are written as the style says (positioned cycle
-/// columns always, so positions hold).
+/// columns always, so positions hold). A free-decay layout gets its time and angle
+/// columns only (see [`write_decay_layout`]).
 pub fn write_layout(
     manifest: &RigFormatManifest,
     style: &WriteStyle,
@@ -116,26 +140,7 @@ pub fn write_layout(
     let separator = layout.metadata.as_ref().map(|m| m.separator.clone()).unwrap_or_else(|| ":".into());
     let quote_meta = layout.delimiter == Delimiter::Byte(b';');
 
-    // Banner: whatever detection needs that the rest of the file will not contain.
-    let header_names = [&layout.columns.angle.pick.name, &layout.columns.torque.pick.name];
-    let banner: Vec<&str> = manifest
-        .detect
-        .contains
-        .iter()
-        .map(String::as_str)
-        .filter(|s| Some(*s) != layout.data_marker.as_deref())
-        .filter(|s| !header_names.iter().any(|n| n.as_deref() == Some(*s)))
-        .collect();
-    if !banner.is_empty() {
-        let _ = write!(
-            out,
-            "{}{} export{eol}",
-            prefix.as_deref().map(|p| format!("{p} ")).unwrap_or_default(),
-            banner.join(" ")
-        );
-    }
-
-    // Metadata, with the layout's own labels.
+    // Metadata, with the layout's own labels (written after the banner below).
     let label_for = |key: &str| -> String {
         layout
             .metadata
@@ -145,22 +150,48 @@ pub fn write_layout(
     };
     let mut meta_lines: Vec<(String, String)> =
         metadata.iter().map(|(k, v)| (label_for(k), v.clone())).collect();
-    if let UnitSource::Metadata(label) = &layout.columns.torque.unit {
+    if let Some(UnitSource::Metadata(label)) = layout.columns.torque.as_ref().map(|t| &t.unit) {
         meta_lines.push((label.clone(), torque_unit.symbol().to_string()));
     }
     if let UnitSource::Metadata(label) = &layout.columns.angle.unit {
         meta_lines.push((label.clone(), angle_unit.symbol().to_string()));
     }
+    let mut meta_text = String::new();
     if layout.metadata.is_some() {
         for (label, value) in &meta_lines {
             let p = prefix.as_deref().map(|p| format!("{p} ")).unwrap_or_default();
             if quote_meta {
-                let _ = write!(out, "{p}\"{label}\"{separator}\"{value}\"{eol}");
+                let _ = write!(meta_text, "{p}\"{label}\"{separator}\"{value}\"{eol}");
             } else {
-                let _ = write!(out, "{p}{label}{separator}{value}{eol}");
+                let _ = write!(meta_text, "{p}{label}{separator}{value}{eol}");
             }
         }
     }
+
+    // Banner: whatever detection needs that the rest of the file will not contain.
+    let header_names = [
+        layout.columns.angle.pick.name.as_ref(),
+        layout.columns.torque.as_ref().and_then(|t| t.pick.name.as_ref()),
+        layout.columns.time.as_ref().and_then(|t| t.pick.name.as_ref()),
+    ];
+    let banner: Vec<&str> = manifest
+        .detect
+        .contains
+        .iter()
+        .map(String::as_str)
+        .filter(|s| Some(*s) != layout.data_marker.as_deref())
+        .filter(|s| !header_names.iter().any(|n| n.map(String::as_str) == Some(*s)))
+        .filter(|s| !meta_text.contains(*s))
+        .collect();
+    if !banner.is_empty() {
+        let _ = write!(
+            out,
+            "{}{} export{eol}",
+            prefix.as_deref().map(|p| format!("{p} ")).unwrap_or_default(),
+            banner.join(" ")
+        );
+    }
+    out.push_str(&meta_text);
     if let Some(marker) = &layout.data_marker {
         let _ = write!(out, "{marker}{eol}");
     }
@@ -189,18 +220,18 @@ pub fn write_layout(
             _ => name,
         }
     };
-    let mut fields: Vec<(Option<usize>, String, Kind)> = vec![
-        (
-            columns.angle.pick.position,
-            header_cell(&columns.angle.pick.name, Some(angle_unit.symbol()), Some(&columns.angle.unit)),
-            Kind::Angle,
-        ),
-        (
-            columns.torque.pick.position,
-            header_cell(&columns.torque.pick.name, Some(torque_unit.symbol()), Some(&columns.torque.unit)),
+    let mut fields: Vec<(Option<usize>, String, Kind)> = vec![(
+        columns.angle.pick.position,
+        header_cell(&columns.angle.pick.name, Some(angle_unit.symbol()), Some(&columns.angle.unit)),
+        Kind::Angle,
+    )];
+    if let Some(torque) = &columns.torque {
+        fields.push((
+            torque.pick.position,
+            header_cell(&torque.pick.name, Some(torque_unit.symbol()), Some(&torque.unit)),
             Kind::Torque,
-        ),
-    ];
+        ));
+    }
     let korvel_style_time = matches!(&columns.time, Some(t) if t.seconds_per_unit != 1.0);
     if let (Some(time), Some(_)) = (&columns.time, &curve.time_s) {
         let unit = if korvel_style_time { "ms" } else { "s" };
@@ -250,6 +281,9 @@ pub fn write_layout(
 
     let angle_places = places(RESOLUTION_DEG, angle_unit.deg_per_unit());
     let torque_places = places(RESOLUTION_NMM, torque_unit.nmm_per_unit());
+    // A swing's periods are measured on the time column, so it keeps microseconds.
+    let time_places = if manifest.record == RecordKind::FreeDecay { 6 } else { 3 };
+    let torque_sign = columns.torque.as_ref().map_or(1.0, |t| t.sign);
     let comma = layout.decimal == ',';
     let stroke_labels = columns.stroke.as_ref().map(|s| (s.load.clone(), s.unload.clone()));
     let mut row = String::new();
@@ -266,12 +300,12 @@ pub fn write_layout(
                     let _ = write!(row, "{v:.angle_places$}");
                 }
                 Kind::Torque => {
-                    let v = torque_unit.from_nmm(curve.torque_nmm[i]) * columns.torque.sign;
+                    let v = torque_unit.from_nmm(curve.torque_nmm[i]) * torque_sign;
                     let _ = write!(row, "{v:.torque_places$}");
                 }
                 Kind::Time(seconds_per_unit) => {
                     let t = curve.time_s.as_ref().map(|t| t[i]).unwrap_or(0.0) / seconds_per_unit;
-                    let _ = write!(row, "{t:.3}");
+                    let _ = write!(row, "{t:.time_places$}");
                 }
                 Kind::Stroke => {
                     let (load, unload) = stroke_labels.clone().unwrap_or_default();

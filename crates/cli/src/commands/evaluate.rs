@@ -61,8 +61,12 @@ pub fn run(args: Args) -> Result<ExitCode> {
         (None, None) => SpecSource::None,
     };
     let (files, missing) = expand_inputs(&args.paths);
-    let options =
-        EvaluateOptions { window: args.window, rig_format: args.rig_format.clone(), preview_points: 0 };
+    let options = EvaluateOptions {
+        window: args.window,
+        rig_format: args.rig_format.clone(),
+        preview_points: 0,
+        physics: plant.physics(),
+    };
     let mut tests: Vec<TestRecord> = Vec::new();
     let mut rejected: Vec<twistlot_ingest::IngestError> = missing;
     evaluate_each(&files, &plant.formats, specs, &plant.checks, &options, |evaluated| match evaluated {
@@ -83,24 +87,37 @@ pub fn run(args: Args) -> Result<ExitCode> {
                 "r2",
                 "free_angle_deg",
                 "max_torque_nmm",
+                "theory_nmm_per_deg",
+                "measured/theory",
                 "verdict",
                 "findings",
             ]);
             for t in &tests {
-                let notes: Vec<String> = t
+                let mut notes: Vec<String> = t
                     .findings
                     .iter()
                     .filter(|f| f.verdict != Verdict::Pass)
                     .map(|f| format!("{} {}: {}", f.class, f.verdict, f.message))
                     .collect();
+                let theory = t.theory.as_ref();
+                if let Some(th) = theory.filter(|th| th.outside_band) {
+                    notes.push(format!(
+                        "caution, not a verdict: measured/theory rate outside {}–{}",
+                        th.band[0], th.band[1]
+                    ));
+                }
+                // A swing's rate is its dynamic rate; it has no fit, free angle or torque.
+                let swing = t.swing.is_some();
                 table.row(vec![
                     t.serial.clone().unwrap_or_else(|| t.file.clone()),
                     t.part.clone().unwrap_or_default(),
                     t.lot.clone().unwrap_or_default(),
-                    fmt(t.metrics.rate_nmm_per_deg, 4),
-                    fmt(t.metrics.rate_r2, 5),
+                    fmt(t.measured_rate_nmm_per_deg(), 4),
+                    if swing { "swing".into() } else { fmt(t.metrics.rate_r2, 5) },
                     fmt(t.metrics.free_angle_deg, 2),
-                    format!("{:.1}", t.metrics.max_torque_nmm),
+                    if swing { "—".into() } else { format!("{:.1}", t.metrics.max_torque_nmm) },
+                    fmt(theory.map(|th| th.rate_nmm_per_deg), 4),
+                    fmt(theory.and_then(|th| th.ratio), 3),
                     t.verdict.map(|v| v.to_string()).unwrap_or_else(|| "no spec".into()),
                     notes.join("; "),
                 ]);

@@ -5,8 +5,10 @@ pub mod ingest;
 pub mod plugins;
 pub mod sampling;
 pub mod shift;
+pub mod swing;
 pub mod switching;
 pub mod synth;
+pub mod theory;
 
 use anyhow::{Context, Result};
 use clap::ValueEnum;

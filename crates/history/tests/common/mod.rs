@@ -70,6 +70,8 @@ pub fn test(part: &str, lot: &str, serial: &str, started: &str, rate: f64) -> Te
             message: "inside the limits".to_string(),
         }],
         status: TestStatus::Counted,
+        swing: None,
+        theory: None,
     }
 }
 
@@ -95,6 +97,8 @@ pub fn sparse_test(serial: Option<&str>, file: &str) -> TestRecord {
         verdict: None,
         findings: Vec::new(),
         status: TestStatus::Duplicate { same_as: "rig-b/other.csv".to_string() },
+        swing: None,
+        theory: None,
     }
 }
 

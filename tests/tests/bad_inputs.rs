@@ -344,7 +344,10 @@ fn the_built_in_plugins_need_no_folder_and_the_demo_plugins_all_validate() {
     assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
     let rows: Vec<serde_json::Value> = serde_json::from_slice(&output.stdout).unwrap();
     let names: Vec<&str> = rows.iter().filter_map(|r| r["name"].as_str()).collect();
-    assert_eq!(names, ["native", "korvel-tab", "ostrel-semi", "pellam-fixed", "mil-std-105e"]);
+    assert_eq!(
+        names,
+        ["native", "korvel-tab", "ostrel-semi", "pellam-fixed", "mil-std-105e", "weighted-least-slack"]
+    );
     assert!(rows.iter().all(|r| r["status"] == "active" && r["source"] == "built in"), "{rows:#?}");
 
     let plant = twistlot_tests::workspace_root().join("sample_lots/plant.yaml");

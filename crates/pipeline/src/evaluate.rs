@@ -31,6 +31,10 @@ pub struct EvaluateOptions {
     pub rig_format: Option<String>,
     /// Keep a thinned copy of each curve with at most this many points (0: none), for charts.
     pub preview_points: usize,
+    /// Serials of reference springs with the angle each is certified at: their exports are
+    /// judged against no part spec, and the torque at that angle is read
+    /// (see [`crate::reference`]).
+    pub reference_angles: std::collections::BTreeMap<String, f64>,
 }
 
 /// A thinned copy of a test's curve, for charts.
@@ -107,7 +111,9 @@ fn evaluate_one(
         }
     };
     let meta = &export.metadata;
+    let reference_angle = meta.serial.as_deref().and_then(|s| options.reference_angles.get(s)).copied();
     let spec_entry = match specs {
+        _ if reference_angle.is_some() => None,
         SpecSource::Fixed(entry) => Some(entry),
         SpecSource::ByPart(library) => meta.part.as_deref().and_then(|p| library.get(p)),
         SpecSource::None => None,
@@ -120,6 +126,9 @@ fn evaluate_one(
     };
     if let Some(window) = options.window {
         metric_options.window = window;
+    }
+    if let Some(angle) = reference_angle {
+        metric_options.torque_angles_deg.push(angle);
     }
     let metrics = match curve_metrics(&curve, &metric_options) {
         Ok(metrics) => metrics,
@@ -135,6 +144,8 @@ fn evaluate_one(
             let judgement = judge_with(&metrics, &entry.spec, checks);
             (Some(judgement.verdict), judgement.findings)
         }
+        // A reference spring is judged against its certificate, not a part spec.
+        (None, _) if reference_angle.is_some() => (None, Vec::new()),
         // A plant that has specs but none for this part: say so instead of passing it.
         (None, SpecSource::ByPart(_)) => (
             Some(Verdict::Invalid),

@@ -61,8 +61,14 @@ pub fn run(args: Args) -> Result<ExitCode> {
         (None, None) => SpecSource::None,
     };
     let (files, missing) = expand_inputs(&args.paths);
-    let options =
-        EvaluateOptions { window: args.window, rig_format: args.rig_format.clone(), preview_points: 0 };
+    // Reference-spring exports are read at their check angle, not judged against a part spec.
+    let references = twistlot_pipeline::reference::reference_angles(&plant);
+    let options = EvaluateOptions {
+        window: args.window,
+        rig_format: args.rig_format.clone(),
+        reference_angles: references.clone(),
+        ..EvaluateOptions::default()
+    };
     let mut tests: Vec<TestRecord> = Vec::new();
     let mut rejected: Vec<twistlot_ingest::IngestError> = missing;
     evaluate_each(&files, &plant.formats, specs, &plant.checks, &options, |evaluated| match evaluated {
@@ -101,7 +107,11 @@ pub fn run(args: Args) -> Result<ExitCode> {
                     fmt(t.metrics.rate_r2, 5),
                     fmt(t.metrics.free_angle_deg, 2),
                     format!("{:.1}", t.metrics.max_torque_nmm),
-                    t.verdict.map(|v| v.to_string()).unwrap_or_else(|| "no spec".into()),
+                    match (t.verdict, t.serial.as_deref().is_some_and(|s| references.contains_key(s))) {
+                        (Some(v), _) => v.to_string(),
+                        (None, true) => "reference spring".into(),
+                        (None, false) => "no spec".into(),
+                    },
                     notes.join("; "),
                 ]);
             }

@@ -346,7 +346,15 @@ fn the_built_in_plugins_need_no_folder_and_the_demo_plugins_all_validate() {
     let names: Vec<&str> = rows.iter().filter_map(|r| r["name"].as_str()).collect();
     assert_eq!(
         names,
-        ["native", "native-decay", "korvel-tab", "ostrel-semi", "pellam-fixed", "mil-std-105e"]
+        [
+            "native",
+            "native-decay",
+            "korvel-tab",
+            "ostrel-semi",
+            "pellam-fixed",
+            "mil-std-105e",
+            "weighted-least-slack"
+        ]
     );
     assert!(rows.iter().all(|r| r["status"] == "active" && r["source"] == "built in"), "{rows:#?}");
 

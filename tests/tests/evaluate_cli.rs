@@ -31,7 +31,19 @@ fn the_demo_shift_is_judged_part_by_part() {
     let (code, rows) = evaluate_json(&[shift.to_str().unwrap(), "--plant", plant.to_str().unwrap()]);
     // Two broken exports and the lot list are rejected, so the run says so.
     assert_eq!(code, 3);
-    assert_eq!(rows.len(), 253);
+    // 253 parts (torque curves and swings) and each rig's reference-spring check.
+    assert_eq!(rows.len(), 257);
+    let references: Vec<&Value> =
+        rows.iter().filter(|r| r["serial"].as_str().unwrap().starts_with("REF-")).collect();
+    assert_eq!(references.len(), 4);
+    // A reference spring is judged against its certificate (in the shift run), not a part spec,
+    // and its torque at the check angle is read.
+    assert!(references
+        .iter()
+        .all(|r| r["verdict"].is_null() && r["findings"].as_array().unwrap().is_empty()));
+    assert!(references.iter().all(|r| r["torque_nmm_at"].as_object().unwrap().len() == 1), "{references:?}");
+    let rows: Vec<Value> =
+        rows.into_iter().filter(|r| !r["serial"].as_str().unwrap().starts_with("REF-")).collect();
     for key in [
         "test_id",
         "file",
@@ -72,7 +84,7 @@ fn the_demo_shift_is_judged_part_by_part() {
         assert!(failing_characteristics(row, "invalid").contains(&"torque@100".to_string()), "{serial}");
     }
     // The swing-tested part that stiffens with angle fails the amplitude-dependence limit.
-    let stiffening = by_serial(&rows, "L2612-060-004");
+    let stiffening = by_serial(&rows, "L2612-070-004");
     assert_eq!(failing_characteristics(stiffening, "fail"), ["amplitude_dependence"]);
     let failed: Vec<&str> =
         rows.iter().filter(|r| r["verdict"] != "pass").map(|r| r["serial"].as_str().unwrap()).collect();
@@ -85,8 +97,15 @@ fn the_demo_shift_is_judged_part_by_part() {
 #[test]
 fn a_spec_file_judges_every_export_and_the_window_can_change() {
     let spec = workspace_root().join("sample_lots/parts/TS-2210.yaml");
-    let lot = sample_shift_dir().join("rig-a");
-    let (code, rows) = evaluate_json(&[lot.to_str().unwrap(), "--spec", spec.to_str().unwrap()]);
+    // The lot's own exports (the rig's folder also holds its reference-spring check).
+    let mut files: Vec<String> = std::fs::read_dir(sample_shift_dir().join("rig-a"))
+        .unwrap()
+        .map(|e| e.unwrap().path().to_str().unwrap().to_string())
+        .filter(|p| p.contains("L2612-031-"))
+        .collect();
+    files.sort();
+    let lot: Vec<&str> = files.iter().map(String::as_str).collect();
+    let (code, rows) = evaluate_json(&[lot.as_slice(), &["--spec", spec.to_str().unwrap()]].concat());
     assert_eq!(code, 0);
     assert_eq!(rows.len(), 50);
     assert!(rows.iter().all(|r| r["verdict"] == "pass"));
@@ -100,7 +119,7 @@ fn a_spec_file_judges_every_export_and_the_window_can_change() {
     assert!((rows[0]["window_deg"][0].as_f64().unwrap() - expected_lo).abs() < 1e-9);
 
     let (_, whole) =
-        evaluate_json(&[lot.to_str().unwrap(), "--spec", spec.to_str().unwrap(), "--window", "0:1"]);
+        evaluate_json(&[lot.as_slice(), &["--spec", spec.to_str().unwrap(), "--window", "0:1"]].concat());
     assert_eq!(whole[0]["window_deg"][0].as_f64().unwrap(), start);
     assert_eq!(whole[0]["window_deg"][1].as_f64().unwrap(), 90.0);
 }
@@ -112,7 +131,8 @@ fn without_a_spec_metrics_come_without_verdicts() {
     let plugins = workspace_root().join("sample_lots/plugins");
     let (code, rows) = evaluate_json(&[lot.to_str().unwrap(), "--plugins", plugins.to_str().unwrap()]);
     assert_eq!(code, 0);
-    assert_eq!(rows.len(), 50);
+    // Lot L2612-050 and the rig's reference-spring check.
+    assert_eq!(rows.len(), 51);
     assert!(rows.iter().all(|r| r["verdict"].is_null() && r["findings"].as_array().unwrap().is_empty()));
     assert!(rows.iter().all(|r| r["rate_nmm_per_deg"].as_f64().is_some()));
 }
@@ -167,7 +187,9 @@ fn the_table_ends_with_counts_and_the_caution() {
         .output()
         .unwrap();
     let stdout = String::from_utf8_lossy(&output.stdout);
-    assert!(stdout.contains("81 tests: 76 pass, 3 fail, 2 invalid; 1 files rejected."), "{stdout}");
+    // The lots' 81 tests and the rig's reference-spring check, which has no part verdict.
+    assert!(stdout.contains("82 tests: 76 pass, 3 fail, 2 invalid; 1 files rejected."), "{stdout}");
+    assert!(stdout.lines().any(|l| l.starts_with("REF-C-01") && l.contains("reference spring")), "{stdout}");
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert!(stderr.contains("customer's drawing"), "{stderr}");
     assert!(stderr.contains("L2612-041-018.dat, line"), "{stderr}");

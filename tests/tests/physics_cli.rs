@@ -577,7 +577,7 @@ fn both_commands_work_on_the_shipped_swing_part_and_its_demo_exports() {
     assert!(rel(num(&theory, "rate_nmm_per_deg"), 185_000.0 * 0.5_f64.powi(4) / (3667.0 * 6.0 * n)) < 2e-5);
     assert_eq!(num(&theory, "deflection_deg"), 15.0);
 
-    let export = twistlot_tests::sample_shift_dir().join("rig-e/L2612-060-001.csv");
+    let export = twistlot_tests::sample_shift_dir().join("rig-e/L2612-070-001.csv");
     let output = swing(&[export.as_os_str(), "--format".as_ref(), "json".as_ref()]);
     assert_eq!(output.status.code(), Some(0), "{}", stderr(&output));
     let got = json(&output);

@@ -17,6 +17,9 @@ const EXIT_HELP: &str = "Exit status: 0 when everything was read; 3 when the com
 files (or plugin manifests) were rejected, each listed with its reason; 1 when the command could not run; \
 2 for bad arguments.";
 
+const PLAN_EXIT_HELP: &str = "Exit status: 0 when every listed lot is planned; 3 when the plan was made but \
+some lots are left out (each listed with its reason); 1 when no plan could be made; 2 for bad arguments.";
+
 /// The caution printed after results that people act on.
 pub const CAUTION: &str =
     "Caution: results come only from the rig data supplied. The customer's drawing and \
@@ -35,6 +38,9 @@ enum Command {
     /// Read rig exports (files or folders) into canonical curves and account for every file.
     #[command(after_help = EXIT_HELP)]
     Ingest(commands::ingest::Args),
+    /// Plan a shift's tests: sample counts, rigs, order and reference checks; writes the plan and work lists.
+    #[command(after_help = PLAN_EXIT_HELP)]
+    Plan(commands::plan::Args),
     /// Run a whole shift: read every export, judge every part, decide every listed lot, write the reports.
     #[command(after_help = EXIT_HELP)]
     Shift(commands::shift::Args),
@@ -71,6 +77,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Ingest(args) => commands::ingest::run(args),
+        Command::Plan(args) => commands::plan::run(args),
         Command::Shift(args) => commands::shift::run(args),
         Command::Evaluate(args) => commands::evaluate::run(args),
         Command::Theory(args) => commands::theory::run(args),

@@ -104,8 +104,8 @@ pub fn test_columns<'a>() -> Vec<ColumnDef<TestRow<'a>>> {
         ColumnDef { name: "findings", kind: Kind::Json, unit: "", doc: "per characteristic: array of `{characteristic, class, value, lower, upper, verdict, message}`", get: |r: &R| json(&r.record.findings) },
         ColumnDef { name: "swing", kind: Kind::Json, unit: "", doc: "a free-decay (swing) test's analysis: period, damping, κ, dynamic rate, amplitude dependence; null for a torque curve", get: |r: &R| match &r.record.swing { Some(s) => json(s), None => Value::Text(None) } },
         ColumnDef { name: "theory", kind: Kind::Json, unit: "", doc: "the drawing's theoretical rate beside the measured one (rate, ratio, band); null when the spec gives no design", get: |r: &R| match &r.record.theory { Some(t) => json(t), None => Value::Text(None) } },
-        ColumnDef { name: "status", kind: Kind::Text, unit: "", doc: "`counted`, `duplicate` (same bytes as `status_ref`) or `superseded` (tested again in `status_ref`)", get: |r: &R| text(Some(r.record.status.as_str())) },
-        ColumnDef { name: "status_ref", kind: Kind::Text, unit: "", doc: "the file a duplicate repeats or a superseded test was replaced by", get: |r: &R| text(match &r.record.status { TestStatus::Counted => None, TestStatus::Duplicate { same_as } => Some(same_as), TestStatus::Superseded { by } => Some(by) }) },
+        ColumnDef { name: "status", kind: Kind::Text, unit: "", doc: "`counted`, `duplicate` (same bytes as `status_ref`), `superseded` (tested again in `status_ref`) or `reference` (a rig's reference-spring check, counted toward no lot)", get: |r: &R| text(Some(r.record.status.as_str())) },
+        ColumnDef { name: "status_ref", kind: Kind::Text, unit: "", doc: "the file a duplicate repeats or a superseded test was replaced by", get: |r: &R| text(match &r.record.status { TestStatus::Counted | TestStatus::Reference => None, TestStatus::Duplicate { same_as } => Some(same_as), TestStatus::Superseded { by } => Some(by) }) },
         ColumnDef { name: "shift_seq", kind: Kind::I64, unit: "", doc: "the shift's place in the store's order (kept when the shift is written again)", get: |r: &R| Value::I64(Some(r.shift_seq)) },
         ColumnDef { name: "row_index", kind: Kind::I64, unit: "", doc: "the row's place among the shift's tests as written", get: |r: &R| Value::I64(Some(r.row_index)) },
         ColumnDef { name: "stored_at", kind: Kind::Time, unit: "UTC", doc: "when the row was stored", get: |r: &R| t(Some(r.stored_at)) },
@@ -686,6 +686,7 @@ pub fn read_tests(cells: &Cells) -> Result<Vec<StoredTest>, HistoryError> {
     for i in 0..n {
         let status = match (required(cells, "status", i, status[i].as_deref())?, status_ref[i].clone()) {
             ("counted", _) => TestStatus::Counted,
+            ("reference", _) => TestStatus::Reference,
             ("duplicate", Some(same_as)) => TestStatus::Duplicate { same_as },
             ("superseded", Some(by)) => TestStatus::Superseded { by },
             (other, _) => {

@@ -32,15 +32,16 @@ pub mod yaml_list;
 
 pub use capability::{Absent, AbsentReason, Capability, CapabilityMethod, FittedDistribution, WithinSigma};
 pub use curve::{CurveData, DecayData, RecordKind, Stroke};
-pub use lot_list::{ListedLot, LotList};
+pub use lot_list::{ListedLot, LotList, ShiftHours};
 pub use metadata::TestMetadata;
 pub use plant_time::{BadTime, ClockTime, PlantTime};
 pub use plugin::{Manifest, PluginHeader, PluginKind};
 pub use record::{
     AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, DecayShape, Disposition, DuplicateFile,
-    Ground, GroundTopic, InspectionState, LotDecision, LotRecord, PlanSummary, RateSummary, RejectedFile,
-    Severity, ShiftRecord, SupersededTest, SwingMetrics, SwitchingCount, TestRecord, TestStatus, TheoryRate,
-    UnknownLabel, VariablesDecision,
+    Ground, GroundTopic, InspectionState, LotDecision, LotRecord, PlanComparison, PlanSummary,
+    PlannedAgainstTested, RateSummary, ReferenceCheck, RejectedFile, RigVerification, Severity, ShiftRecord,
+    SupersededTest, SwingMetrics, SwitchingCount, TestRecord, TestStatus, TestedOnRefusedRig, TheoryRate,
+    UnknownLabel, VariablesDecision, VerificationStatus,
 };
 pub use rig::{validate_rigs, Availability, ReferenceSpring, Rig, RigFieldError, RigList, ShiftClock};
 pub use spec::{CharacteristicClass, Finding, Limits, PartSpec, Tolerance, Verdict};

@@ -8,7 +8,11 @@
 //! ```
 //!
 //! Only `lot`, `part` and `quantity` are required, so lot lists written before planning
-//! existed still load.
+//! existed still load. Planning also needs the shift's hours, written once above the lots:
+//!
+//! ```yaml
+//! shift: { start: "2026-12-01T14:00", end: "2026-12-01T22:00" }
+//! ```
 
 use crate::plant_time::PlantTime;
 use crate::yaml::{parse_document, DocumentError};
@@ -71,12 +75,27 @@ fn default_weight() -> f64 {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct LotListText {
+    #[serde(default)]
+    shift: Option<ShiftHours>,
     lots: Vec<LotText>,
+}
+
+/// The stretch of plant-local time a shift runs: what a plan may use.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ShiftHours {
+    /// When the shift starts.
+    pub start: PlantTime,
+    /// When it ends (after `start`).
+    pub end: PlantTime,
 }
 
 /// The lots of one shift, in the order written.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct LotList {
+    /// The shift's hours, when the list gives them (planning needs them).
+    #[serde(default)]
+    pub shift: Option<ShiftHours>,
     /// The lots.
     pub lots: Vec<ListedLot>,
 }
@@ -88,9 +107,22 @@ impl LotList {
     /// ready time after the ship-by time, a weight that is not a positive number, a wire
     /// or mean coil diameter that is not a positive number or a wire as thick as the
     /// coil's mean diameter, an empty lot or part, and times not written
-    /// `YYYY-MM-DDTHH:MM[:SS]`.
+    /// `YYYY-MM-DDTHH:MM[:SS]`, and a shift that does not end after it starts.
     pub fn from_yaml(origin: &str, text: &str) -> Result<LotList, DocumentError> {
         let file: LotListText = parse_document(origin, text)?;
+        if let Some(hours) = file.shift {
+            if hours.end <= hours.start {
+                return Err(DocumentError::at_field(
+                    origin,
+                    text,
+                    "shift.end",
+                    format!(
+                        "the shift starts at {}, so it must end later, not at {}",
+                        hours.start, hours.end
+                    ),
+                ));
+            }
+        }
         let error = |index: usize, field: &str, message: String| DocumentError {
             origin: origin.to_string(),
             line: locate_item_field(text, "lots", index, field),
@@ -169,7 +201,7 @@ impl LotList {
                 mean_d_mm: raw.mean_d_mm,
             });
         }
-        Ok(LotList { lots })
+        Ok(LotList { shift: file.shift, lots })
     }
 }
 
@@ -215,6 +247,19 @@ lots:
         let text = include_str!("../../../sample_lots/shifts/2026-12-01-late/lots.yaml");
         let list = LotList::from_yaml("lots.yaml", text).unwrap();
         assert!(!list.lots.is_empty());
+    }
+
+    #[test]
+    fn shift_hours_load_and_must_run_forward() {
+        let text = format!("shift: {{ start: \"2026-12-01T14:00\", end: \"2026-12-01T22:00\" }}\n{NEW}");
+        let list = LotList::from_yaml("lots.yaml", &text).unwrap();
+        let hours = list.shift.unwrap();
+        assert_eq!(hours.end.seconds_since(hours.start), 8 * 3600);
+        assert_eq!(LotList::from_yaml("lots.yaml", NEW).unwrap().shift, None);
+        let backwards = text.replacen("2026-12-01T22:00", "2026-12-01T13:00", 1);
+        let err = LotList::from_yaml("lots.yaml", &backwards).unwrap_err();
+        assert_eq!((err.line, err.field.as_deref()), (Some(1), Some("shift.end")), "{err}");
+        assert!(err.message.contains("must end later"), "{err}");
     }
 
     #[test]

@@ -311,6 +311,8 @@ pub enum TestStatus {
         /// The file of the test that counts instead.
         by: String,
     },
+    /// A reference ("master") spring's verification of its rig: not a test of any lot.
+    Reference,
 }
 
 impl TestStatus {
@@ -325,6 +327,7 @@ impl TestStatus {
             TestStatus::Counted => "counted",
             TestStatus::Duplicate { .. } => "duplicate",
             TestStatus::Superseded { .. } => "superseded",
+            TestStatus::Reference => "reference",
         }
     }
 }
@@ -811,6 +814,122 @@ pub struct ShiftRecord {
     pub cautions: Vec<String>,
     /// Files whose bytes repeat another file's, counted once.
     pub duplicates: Vec<DuplicateFile>,
+    /// Each rig's reference-spring verification in the shift (empty when the plant
+    /// config records no reference spring).
+    #[serde(default)]
+    pub rig_verifications: Vec<RigVerification>,
+    /// The shift's plan against what was tested, when a plan was found.
+    #[serde(default)]
+    pub plan: Option<PlanComparison>,
+}
+
+/// Where a rig stands after the shift's reference-spring checks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum VerificationStatus {
+    /// Checked with its reference spring, and every check passed.
+    Verified,
+    /// A check deviated beyond the allowed deviation or could not be measured.
+    Failed,
+    /// No reference-spring export of the rig in the shift.
+    Missing,
+}
+
+impl VerificationStatus {
+    /// The lower-case label.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            VerificationStatus::Verified => "verified",
+            VerificationStatus::Failed => "failed",
+            VerificationStatus::Missing => "missing",
+        }
+    }
+}
+
+/// One reference-spring export: the torque measured at the check angle against the
+/// certified torque.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ReferenceCheck {
+    /// The export file.
+    pub file: String,
+    /// Serial of the reference spring.
+    pub serial: String,
+    /// Start time as the rig wrote it.
+    pub started: Option<String>,
+    /// Angle the torque is certified at, degrees.
+    pub check_angle_deg: f64,
+    /// Certified torque at that angle, N·mm.
+    pub certified_torque_nmm: f64,
+    /// Torque measured on the loading stroke at that angle, N·mm (absent: not reached).
+    pub measured_torque_nmm: Option<f64>,
+    /// (measured − certified) / certified, %.
+    pub deviation_pct: Option<f64>,
+    /// Largest deviation that passes, %.
+    pub allowed_deviation_pct: f64,
+    /// True when the deviation is within the allowed one.
+    pub passed: bool,
+}
+
+/// A rig's reference-spring verification for one shift.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RigVerification {
+    /// The rig.
+    pub rig: String,
+    /// Serial of the reference spring the plant config records for it, if any.
+    pub reference: Option<String>,
+    /// Verified, failed or missing.
+    pub status: VerificationStatus,
+    /// Why, in words (what a lot report says for a lot tested on the rig).
+    pub reason: String,
+    /// The reference-spring exports of the rig, in file order.
+    pub checks: Vec<ReferenceCheck>,
+}
+
+/// One listed lot: what the plan asked for and what was tested.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlannedAgainstTested {
+    /// Lot.
+    pub lot: String,
+    /// Rig the plan put it on (absent: left out of the plan).
+    pub planned_rig: Option<String>,
+    /// Parts the plan asked to test.
+    pub planned_samples: Option<u64>,
+    /// Planned start of its tests, plant-local ISO 8601.
+    pub planned_start: Option<String>,
+    /// Why the plan left it out, when it did.
+    pub unplanned_reason: Option<String>,
+    /// Tests that count toward the lot.
+    pub tested: u64,
+    /// Rigs its counted tests ran on, sorted (`unknown` for exports that name none).
+    pub tested_rigs: Vec<String>,
+    /// How reality left the plan, in words (empty when it followed it).
+    pub remarks: Vec<String>,
+}
+
+/// A lot tested on a rig the plan refused for it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TestedOnRefusedRig {
+    /// Lot.
+    pub lot: String,
+    /// Rig.
+    pub rig: String,
+    /// Counted tests of the lot on that rig.
+    pub tests: u64,
+    /// The plan's reasons for refusing the rig.
+    pub reasons: Vec<String>,
+}
+
+/// The shift's plan against reality.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlanComparison {
+    /// The plan file read.
+    pub plan_file: String,
+    /// How the plan was made (`atcs+local-search`…).
+    pub method: String,
+    /// One row per listed lot, in lot-list order.
+    pub lots: Vec<PlannedAgainstTested>,
+    /// Lots tested on a rig the plan refused for them.
+    pub tested_on_refused_rigs: Vec<TestedOnRefusedRig>,
 }
 
 #[cfg(test)]

@@ -36,6 +36,10 @@ pub struct EvaluateOptions {
     pub preview_points: usize,
     /// The theoretical-rate band and the free-swing analysis settings.
     pub physics: PhysicsConfig,
+    /// Serials of reference springs with the angle each is certified at: their exports are
+    /// judged against no part spec, and the torque at that angle is read
+    /// (see [`crate::reference`]).
+    pub reference_angles: std::collections::BTreeMap<String, f64>,
 }
 
 /// A thinned copy of a test's curve, for charts.
@@ -116,6 +120,10 @@ fn evaluate_one(
         }
     };
     let meta = &export.metadata;
+    let reference_angle = meta.serial.as_deref().and_then(|s| options.reference_angles.get(s)).copied();
+    // A reference spring is judged against its certificate, not a part spec.
+    let (spec_entry, missing_spec) =
+        if reference_angle.is_some() { (None, None) } else { (spec_entry, missing_spec) };
     let mut metric_options = match spec_entry {
         Some(entry) => {
             MetricOptions::from_spec(&entry.spec).with_check_angles(checks.checks(), Some(&entry.spec.part))
@@ -124,6 +132,9 @@ fn evaluate_one(
     };
     if let Some(window) = options.window {
         metric_options.window = window;
+    }
+    if let Some(angle) = reference_angle {
+        metric_options.torque_angles_deg.push(angle);
     }
     let mut metrics = match curve_metrics(&curve, &metric_options) {
         Ok(metrics) => metrics,

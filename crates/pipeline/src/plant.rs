@@ -4,7 +4,7 @@ use serde::Deserialize;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use twistlot_model::yaml::parse_document;
-use twistlot_model::{DocumentError, PartSpec};
+use twistlot_model::{validate_rigs, DocumentError, PartSpec, Rig};
 
 /// The plant config as written (paths relative to the file).
 #[derive(Debug, Clone, Deserialize)]
@@ -19,7 +19,9 @@ struct PlantFile {
     #[serde(default)]
     history: Option<PathBuf>,
     #[serde(default)]
-    rigs: Vec<RigEntry>,
+    rigs: Vec<Rig>,
+    #[serde(default)]
+    dispatch_rule: Option<String>,
     #[serde(default)]
     sinks: Vec<String>,
     #[serde(default)]
@@ -97,19 +99,6 @@ pub struct CapabilityConfig {
     pub subgroup_size: Option<usize>,
 }
 
-/// A rig the plant runs.
-#[derive(Debug, Clone, PartialEq, Deserialize, serde::Serialize)]
-#[serde(deny_unknown_fields)]
-pub struct RigEntry {
-    /// Rig name as the exports carry it.
-    pub name: String,
-    /// Rig-format plugin its exports follow.
-    pub format: String,
-    /// Load-cell capacity, N·mm.
-    #[serde(default)]
-    pub capacity_nmm: Option<f64>,
-}
-
 /// A loaded plant config with paths resolved against its folder.
 #[derive(Debug, Clone)]
 pub struct Plant {
@@ -125,8 +114,10 @@ pub struct Plant {
     pub templates_dir: Option<PathBuf>,
     /// History store location.
     pub history_dir: Option<PathBuf>,
-    /// Rigs.
-    pub rigs: Vec<RigEntry>,
+    /// Rigs, as the model records them (planning fields and reference springs included).
+    pub rigs: Vec<Rig>,
+    /// The `dispatch-rule` plugin the planner orders lots by (none: the ATCS index).
+    pub dispatch_rule: Option<String>,
     /// Sink plugins every decided lot is sent to, by name.
     pub sinks: Vec<String>,
     /// Check plugins that apply to this plant's parts, by name.
@@ -181,6 +172,7 @@ impl Plant {
         let text = read(path)?;
         let origin = path.display().to_string();
         let file: PlantFile = parse_document(&origin, &text)?;
+        validate_rigs(&origin, &text, &file.rigs)?;
         let base = path.parent().unwrap_or(Path::new("."));
         let resolve = |p: &Path| if p.is_absolute() { p.to_path_buf() } else { base.join(p) };
         let parts_dir = resolve(&file.parts);
@@ -207,6 +199,7 @@ impl Plant {
             templates_dir: file.templates.as_deref().map(resolve),
             history_dir: file.history.as_deref().map(resolve),
             rigs: file.rigs,
+            dispatch_rule: file.dispatch_rule,
             sinks: file.sinks,
             checks: file.checks,
             beyond_sample: file.beyond_sample,

@@ -10,7 +10,7 @@ use std::fmt;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use twistlot_ingest::{FormatSet, RigFormat};
-use twistlot_model::plugin::{CheckManifest, SinkManifest};
+use twistlot_model::plugin::{CheckManifest, DispatchRuleManifest, SinkManifest};
 use twistlot_model::{DocumentError, Manifest, PluginKind};
 
 /// The declarative plugins that ship inside the binary: (name under `plugins/`, text).
@@ -23,6 +23,10 @@ pub const BUILT_IN: &[(&str, &str)] = &[
     (
         "sampling-schemes/mil-std-105e.yaml",
         include_str!("../../../plugins/sampling-schemes/mil-std-105e.yaml"),
+    ),
+    (
+        "dispatch-rules/weighted-least-slack.yaml",
+        include_str!("../../../plugins/dispatch-rules/weighted-least-slack.yaml"),
     ),
 ];
 
@@ -274,6 +278,20 @@ impl PluginCatalog {
             .collect()
     }
 
+    /// The dispatch-rule plugin with this name; an unknown name is an error.
+    pub fn dispatch_rule(&self, name: &str) -> Result<DispatchRuleManifest, PluginError> {
+        self.active(PluginKind::DispatchRule)
+            .find_map(|(_, m)| match m {
+                Manifest::DispatchRule(rule) if rule.name == name => Some(rule.clone()),
+                _ => None,
+            })
+            .ok_or_else(|| PluginError::Missing {
+                what: "dispatch rule",
+                name: name.to_string(),
+                folders: self.folders_text(),
+            })
+    }
+
     /// The sink plugins with these names and the folders they run in; an unknown name is an error.
     pub fn sinks(&self, names: &[String]) -> Result<Vec<(SinkManifest, PathBuf)>, PluginError> {
         names
@@ -299,10 +317,21 @@ impl PluginCatalog {
 /// Sampling schemes by plugin name, loaded once per run.
 pub type Schemes = std::collections::BTreeMap<String, Arc<twistlot_sampling::Scheme>>;
 
-/// Parses a manifest and validates the parts of it that belong to a layer-1 crate (a
-/// sampling scheme's tables), so every error is reported the same way.
+/// Parses a manifest and validates the parts of it that belong to another crate (a
+/// sampling scheme's tables, a dispatch rule's expression), so every error is reported
+/// the same way, with file, line and field.
 fn load_manifest(origin: &str, text: &str) -> Result<Manifest, DocumentError> {
     let manifest = Manifest::from_yaml(origin, text)?;
+    if let Manifest::DispatchRule(rule) = &manifest {
+        crate::dispatch::check_expression(&rule.expression).map_err(|detail| {
+            DocumentError::at_field(
+                origin,
+                text,
+                "expression",
+                format!("the expression does not compile: {detail}"),
+            )
+        })?;
+    }
     if let Manifest::SamplingScheme(_) = &manifest {
         if let Err(err) = twistlot_sampling::Scheme::from_yaml(origin, text) {
             return Err(match err {
@@ -390,6 +419,7 @@ mod tests {
             assert!(formats.by_name(name).is_some(), "{name} missing");
         }
         assert!(catalog.sampling_schemes().unwrap().contains_key("mil-std-105e"));
+        assert_eq!(catalog.dispatch_rule("weighted-least-slack").unwrap().name, "weighted-least-slack");
         assert!(catalog.entries.iter().all(|e| e.source == PluginSource::BuiltIn));
     }
 
@@ -441,6 +471,28 @@ mod tests {
         assert_eq!(errors[0].line, Some(5));
         assert!(errors[0].to_string().contains("bad.yaml"));
         assert!(matches!(catalog.require_valid(), Err(PluginError::Invalid(_))));
+    }
+
+    #[test]
+    fn a_dispatch_rule_that_does_not_compile_is_refused_at_its_line() {
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::write(
+            dir.path().join("rule.yaml"),
+            "name: broken\nkind: dispatch-rule\napi: 1\ndescription: d\nexpression: \"weight *\"\n",
+        )
+        .unwrap();
+        let catalog = PluginCatalog::discover(&[dir.path().to_path_buf()]).unwrap();
+        let errors: Vec<&DocumentError> = catalog.errors().collect();
+        assert_eq!(errors.len(), 1);
+        assert_eq!(
+            (errors[0].line, errors[0].field.as_deref()),
+            (Some(5), Some("expression")),
+            "{}",
+            errors[0]
+        );
+        assert!(catalog.dispatch_rule("broken").is_err());
+        let err = catalog.dispatch_rule("nope").unwrap_err();
+        assert!(err.to_string().contains("dispatch rule `nope` is named"), "{err}");
     }
 
     #[test]

@@ -9,6 +9,10 @@
 //! 3. [`decide_and_push`]: tests go to the sinks in file order; each listed lot is
 //!    decided by `sampling::decide_lot` at the severity its part's switching history
 //!    earned, and goes to the sinks; the shift's record goes last.
+//!
+//! Reference-spring exports are marked before step 2 and verify their rigs
+//! ([`crate::reference`]); when the output folder holds this shift's plan, the summary
+//! sets it beside what was tested ([`crate::plan_check`]).
 
 pub mod retests;
 
@@ -17,6 +21,8 @@ use crate::open::{OpenError, OpenPlant};
 use crate::outputs::{
     lot_file_name, verdict_counts, ExecSink, ReportWriter, SummaryJsonWriter, TestsCsvWriter,
 };
+use crate::plan_check::{PlanFile, PlanFileError};
+use crate::reference;
 use crate::sink::{LotEvent, ShiftStart, SinkSet, StoppedBy};
 use crate::switching::{
     conditions, describe_standing, part_rules, transition_consequence, PartStanding, SwitchingEntry,
@@ -29,7 +35,7 @@ use twistlot_model::record::start_seconds;
 use twistlot_model::spec::{torque_label, DYNAMIC_RATE, FREQUENCY};
 use twistlot_model::{
     CharacteristicStats, DocumentError, GroundTopic, Limits, ListedLot, LotDecision, LotList, LotRecord,
-    PlanSummary, RateSummary, RejectedFile, ShiftRecord, TestRecord, Verdict,
+    PlanSummary, RateSummary, RejectedFile, ShiftRecord, TestRecord, TestStatus, Verdict,
 };
 use twistlot_sampling::{characteristic_value, decide_lot, LotInput};
 use twistlot_stats::{anderson_darling, angle_key, lot_capability, OrderedValue, Subgrouping};
@@ -65,15 +71,22 @@ pub enum ShiftError {
     /// An output that must not go missing could not be written.
     #[error(transparent)]
     Sink(#[from] StoppedBy),
+    /// The shift's plan is in the output folder but cannot be read.
+    #[error(transparent)]
+    Plan(#[from] PlanFileError),
 }
 
 /// Reads the shift's lot list.
 pub fn load_lot_list(shift_dir: &Path) -> Result<Vec<ListedLot>, ShiftError> {
+    Ok(read_lot_list(shift_dir)?.lots)
+}
+
+/// Reads the shift's lot list with its shift hours.
+pub fn read_lot_list(shift_dir: &Path) -> Result<LotList, ShiftError> {
     let path = shift_dir.join(LOT_LIST);
     let text = std::fs::read_to_string(&path)
         .map_err(|source| ShiftError::ReadLotList { path: path.clone(), source })?;
-    let list = LotList::from_yaml(&path.display().to_string(), &text).map_err(ShiftError::LotList)?;
-    Ok(list.lots)
+    LotList::from_yaml(&path.display().to_string(), &text).map_err(ShiftError::LotList)
 }
 
 /// The current UTC time as RFC 3339, for stamping outputs and record entries.
@@ -166,10 +179,10 @@ pub fn collect(
         ..CollectedTests::default()
     };
     let options = EvaluateOptions {
-        window: None,
-        rig_format: None,
         preview_points: PREVIEW_POINTS,
         physics: plant.physics(),
+        reference_angles: reference::reference_angles(plant),
+        ..EvaluateOptions::default()
     };
     let mut done = 0;
     evaluate_each(
@@ -265,6 +278,8 @@ pub struct ShiftRun<'a> {
     pub generated_at: &'a str,
     /// Output folder.
     pub out_dir: &'a Path,
+    /// The shift's plan and its file, when the output folder holds one.
+    pub plan: Option<(&'a Path, &'a PlanFile)>,
 }
 
 /// Step 3: pushes the tests and the decided lots into `sinks`; returns the shift's record.
@@ -274,13 +289,14 @@ pub fn decide_and_push(
     duplicates: Vec<twistlot_model::DuplicateFile>,
     sinks: &mut SinkSet,
 ) -> Result<ShiftRecord, ShiftError> {
-    let ShiftRun { plant, shift, lots, record, generated_at, out_dir } = *run;
+    let ShiftRun { plant, shift, lots, record, generated_at, out_dir, plan } = *run;
     let mut collected = collected;
     sinks.start(&ShiftStart { shift, plant: plant.name(), out_dir, generated_at })?;
     for test in &collected.tests {
         sinks.test(test)?;
     }
     let tests = &collected.tests;
+    let verifications = reference::verify_rigs(plant, tests);
     let mut standings = Standings { plant, record, shift, parts: BTreeMap::new() };
     let mut summary = ShiftRecord {
         shift: shift.to_string(),
@@ -293,6 +309,8 @@ pub fn decide_and_push(
         switching_record: record.map(|r| r.path().display().to_string()),
         cautions: twistlot_report::default_cautions(),
         duplicates: duplicates.clone(),
+        rig_verifications: verifications.clone(),
+        plan: plan.map(|(file, plan)| crate::plan_check::compare(file, plan, lots, tests)),
     };
     for listed in lots {
         let lot_tests: Vec<&TestRecord> =
@@ -300,6 +318,7 @@ pub fn decide_and_push(
         let counted: Vec<&TestRecord> = lot_tests.iter().copied().filter(|t| t.status.is_counted()).collect();
         let spec = plant.specs.get(&listed.part);
         let standing = standings.lot_standing(&listed.part);
+        let unverified = reference::unverified_for(plant, &verifications, &counted);
         let mut decision = match spec {
             None => LotDecision::hold(
                 GroundTopic::Evidence,
@@ -316,6 +335,7 @@ pub fn decide_and_push(
                     beyond_sample: plant.config.as_ref().map(|c| c.beyond_sample).unwrap_or_default(),
                     variables_normality_p: variables_normality(&entry.spec, &counted),
                     non_normal: plant.config.as_ref().map(|c| c.variables_non_normal).unwrap_or_default(),
+                    unverified_rigs: &unverified,
                 };
                 decide_lot(&input, |name| plant.schemes.get(name).map(|s| s.as_ref()))
             }
@@ -379,7 +399,10 @@ pub fn decide_and_push(
         summary.lots.push(lot_record);
     }
     let listed: std::collections::BTreeSet<&str> = lots.iter().map(|l| l.lot.as_str()).collect();
-    for test in tests.iter().filter(|t| !listed.contains(t.lot.as_deref().unwrap_or(""))) {
+    let unlisted = |t: &&TestRecord| {
+        t.status != TestStatus::Reference && !listed.contains(t.lot.as_deref().unwrap_or(""))
+    };
+    for test in tests.iter().filter(unlisted) {
         let lot = test.lot.as_deref().filter(|l| !l.is_empty()).unwrap_or("none");
         summary.unlisted_tests.push(format!("{} (lot `{lot}` is not on the shift's lot list)", test.file));
     }
@@ -487,7 +510,9 @@ pub fn run_shift(
     let record =
         plant.history_dir.as_deref().map(SwitchingRecord::load).transpose().map_err(ShiftError::History)?;
     let mut sinks = standard_sinks(plant, out_dir, record.clone(), &shift)?;
+    let found_plan = crate::plan_check::find_plan(out_dir, &shift)?;
     let mut collected = collect(plant, shift_dir, progress);
+    reference::mark_references(plant, &mut collected.tests);
     let duplicates = retests::settle(&mut collected.tests);
     let generated_at = utc_stamp();
     let run = ShiftRun {
@@ -497,6 +522,7 @@ pub fn run_shift(
         record: record.as_ref(),
         generated_at: &generated_at,
         out_dir,
+        plan: found_plan.as_ref().map(|(file, plan)| (file.as_path(), plan)),
     };
     decide_and_push(&run, collected, duplicates, &mut sinks)
 }
@@ -650,6 +676,7 @@ mod tests {
             record: None,
             generated_at: "now",
             out_dir: dir.path(),
+            plan: None,
         };
         let summary = decide_and_push(&run, collected, duplicates, &mut sinks).unwrap();
         assert_eq!(

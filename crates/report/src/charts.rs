@@ -18,20 +18,20 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 use serde::{Deserialize, Deserializer, Serialize, Serializer};
 use std::fmt;
 
-const INK: RGBColor = RGBColor(0x22, 0x22, 0x22);
-const SKY: RGBColor = RGBColor(0x56, 0xB4, 0xE9);
-const BLUE: RGBColor = RGBColor(0x00, 0x72, 0xB2);
-const GREEN: RGBColor = RGBColor(0x00, 0x9E, 0x73);
-const VERMILLION: RGBColor = RGBColor(0xD5, 0x5E, 0x00);
-const GRID_LIGHT: RGBColor = RGBColor(0xEE, 0xEE, 0xEE);
-const GRID_BOLD: RGBColor = RGBColor(0xD4, 0xD4, 0xD4);
-const GUIDE: RGBColor = RGBColor(0x88, 0x88, 0x88);
-const FONT: &str = "sans-serif";
+pub(crate) const INK: RGBColor = RGBColor(0x22, 0x22, 0x22);
+pub(crate) const SKY: RGBColor = RGBColor(0x56, 0xB4, 0xE9);
+pub(crate) const BLUE: RGBColor = RGBColor(0x00, 0x72, 0xB2);
+pub(crate) const GREEN: RGBColor = RGBColor(0x00, 0x9E, 0x73);
+pub(crate) const VERMILLION: RGBColor = RGBColor(0xD5, 0x5E, 0x00);
+pub(crate) const GRID_LIGHT: RGBColor = RGBColor(0xEE, 0xEE, 0xEE);
+pub(crate) const GRID_BOLD: RGBColor = RGBColor(0xD4, 0xD4, 0xD4);
+pub(crate) const GUIDE: RGBColor = RGBColor(0x88, 0x88, 0x88);
+pub(crate) const FONT: &str = "sans-serif";
 // plotters' SVG backend writes font-size as the given size / 1.24, so these are
 // chosen to come out at about 14.5, 12 and 11 px.
-const CAPTION_PX: f64 = 18.0;
-const LABEL_PX: f64 = 15.0;
-const SMALL_PX: f64 = 13.5;
+pub(crate) const CAPTION_PX: f64 = 18.0;
+pub(crate) const LABEL_PX: f64 = 15.0;
+pub(crate) const SMALL_PX: f64 = 13.5;
 
 /// Pixel size of the histogram and OC charts.
 const WIDE: (u32, u32) = (760, 380);
@@ -54,7 +54,7 @@ pub struct SvgMarkup {
 }
 
 impl SvgMarkup {
-    fn generated(markup: String) -> Self {
+    pub(crate) fn generated(markup: String) -> Self {
         SvgMarkup { markup, generated: true }
     }
 
@@ -423,7 +423,8 @@ pub fn oc_curve_svg(
     })
 }
 
-type DrawResult = Result<(), DrawingAreaErrorKind<<SVGBackend<'static> as DrawingBackend>::ErrorType>>;
+pub(crate) type DrawResult =
+    Result<(), DrawingAreaErrorKind<<SVGBackend<'static> as DrawingBackend>::ErrorType>>;
 
 /// The plain f64 × f64 chart every function here draws on.
 type Chart2d<'a, 'b> = ChartContext<'a, SVGBackend<'b>, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
@@ -451,7 +452,7 @@ fn draw_mesh(
 }
 
 /// Runs a drawing closure on a fresh SVG canvas and returns the markup.
-fn draw(
+pub(crate) fn draw(
     chart: &'static str,
     size: (u32, u32),
     body: impl FnOnce(&DrawingArea<SVGBackend<'_>, Shift>) -> DrawResult,
@@ -468,7 +469,7 @@ fn draw(
 }
 
 /// A small box saying the chart has no data; `chart` is always one of this module's names.
-fn no_data(chart: &str) -> SvgMarkup {
+pub(crate) fn no_data(chart: &str) -> SvgMarkup {
     let (w, h) = (360, 72);
     SvgMarkup::generated(format!(
         "<svg width=\"{w}\" height=\"{h}\" viewBox=\"0 0 {w} {h}\" xmlns=\"http://www.w3.org/2000/svg\">\n\

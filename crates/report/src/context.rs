@@ -103,6 +103,84 @@ pub struct TestsCsv {
     pub rows: Vec<TestRecord>,
 }
 
+/// Everything the HTML plan shows. `plan` is the plan as `plan.json` holds it; the
+/// pipeline's type, kept generic so this crate never depends on the planner.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PlanReport<P> {
+    /// When the plan was made, already formatted.
+    pub generated_at: String,
+    /// Plant name.
+    pub plant: String,
+    /// The plan.
+    pub plan: P,
+    /// The Gantt chart this crate drew.
+    pub gantt_svg: SvgMarkup,
+    /// File names of the operators' work lists, one per rig.
+    pub worklists: Vec<String>,
+    /// Cautions printed at the foot; see [`plan_cautions`].
+    pub cautions: Vec<String>,
+}
+
+/// One line of an operator's work list: a reference check, a setup or a lot.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WorkStep {
+    /// 1, 2, 3… in the order the rig runs them.
+    pub step: u32,
+    /// `reference-check`, `setup` or `test`.
+    pub kind: String,
+    /// Planned start, plant-local ISO 8601.
+    pub start: String,
+    /// Planned end.
+    pub end: String,
+    /// Lot (empty for a reference check).
+    pub lot: String,
+    /// Part number, or the reference spring's serial.
+    pub part: String,
+    /// Parts to test (0 for a setup; 1 for a reference check).
+    pub samples: u64,
+    /// Arbor to fit, mm (absent when none is named).
+    pub arbor_mm: Option<f64>,
+    /// Fixture, as the plant names it.
+    pub fixture: String,
+    /// When the lot must ship.
+    pub ship_by: Option<String>,
+    /// What to do, in words.
+    pub instruction: String,
+}
+
+/// Context of `worklist.csv.j2`: one rig's steps in order.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WorklistCsv {
+    /// The rig.
+    pub rig: String,
+    /// Shift name.
+    pub shift: String,
+    /// When the plan was made.
+    pub generated_at: String,
+    /// Cautions written as comment lines above the header.
+    pub cautions: Vec<String>,
+    /// The steps, reference check first.
+    pub steps: Vec<WorkStep>,
+}
+
+/// The cautions a plan and the operators' work lists carry.
+pub fn plan_cautions() -> Vec<String> {
+    [
+        "A loaded torsion spring stores energy and can leave a fixture violently: load and unload \
+         parts with the drive at rest, keep hands and face out of the legs' path, and keep the rig's \
+         guard closed while it turns.",
+        "Run the reference-spring check first; a lot's tests count only after the rig has passed it, \
+         and a rig past its calibration date must not test at all.",
+        "Fit only the arbor the plan names or a smaller one: an arbor too large for the wound-down \
+         spring binds and fakes hysteresis.",
+        "This plan orders the tests; it decides nothing. The customer's drawing and specification \
+         govern acceptance, and local codes and licensed practice govern safety.",
+    ]
+    .into_iter()
+    .map(String::from)
+    .collect()
+}
+
 /// The cautions every output carries unless the plant supplies its own.
 pub fn default_cautions() -> Vec<String> {
     [

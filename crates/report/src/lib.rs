@@ -1,7 +1,8 @@
-//! Turns a shift's results into the documents people read: lot reports, the shift
-//! summary and the per-test CSV.
+//! Turns a shift's results and plan into the documents people read: lot reports, the
+//! shift summary, the per-test CSV, the plan page and the operators' work lists.
 //!
-//! For: drawing the report charts as inline SVG ([`charts`]), holding the plain-data
+//! For: drawing the report charts and the plan's Gantt chart as inline SVG ([`charts`],
+//! [`gantt`]), holding the plain-data
 //! contexts the pipeline fills ([`context`]), and rendering them through minijinja
 //! templates compiled into the binary that a plant may override file by file ([`render`]).
 //!
@@ -11,15 +12,20 @@
 //! embed, so the layers that compute results never have to know how they are shown.
 //!
 //! Main types: [`Renderer`], [`LotReport`], [`ShiftSummary`], [`TestsCsv`],
-//! [`SvgMarkup`], [`ReportError`]; chart functions [`rate_histogram_svg`],
-//! [`curves_svg`], [`oc_curve_svg`].
+//! [`PlanReport`], [`WorklistCsv`], [`SvgMarkup`], [`ReportError`]; chart functions
+//! [`rate_histogram_svg`], [`curves_svg`], [`oc_curve_svg`] and the plan's [`gantt_svg`].
 
 pub mod charts;
 pub mod context;
+pub mod gantt;
 pub mod render;
 
 pub use charts::{curves_svg, oc_curve_svg, rate_histogram_svg, CurveLine, SvgMarkup, ToleranceWindow};
-pub use context::{default_cautions, Charts, LotReport, ShiftSummary, TestsCsv};
+pub use context::{
+    default_cautions, plan_cautions, Charts, LotReport, PlanReport, ShiftSummary, TestsCsv, WorkStep,
+    WorklistCsv,
+};
+pub use gantt::{gantt_svg, BarKind, GanttBar, GanttRow};
 pub use render::{csv_field, Renderer, TemplateSource};
 
 use std::path::PathBuf;

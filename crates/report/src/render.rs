@@ -21,8 +21,10 @@ pub const BUILT_IN: &[(&str, &str)] = &[
     ("_report.css.j2", include_str!("../../../templates/_report.css.j2")),
     ("lot_report.html.j2", include_str!("../../../templates/lot_report.html.j2")),
     ("lot_report.md.j2", include_str!("../../../templates/lot_report.md.j2")),
+    ("plan.html.j2", include_str!("../../../templates/plan.html.j2")),
     ("shift_summary.html.j2", include_str!("../../../templates/shift_summary.html.j2")),
     ("tests.csv.j2", include_str!("../../../templates/tests.csv.j2")),
+    ("worklist.csv.j2", include_str!("../../../templates/worklist.csv.j2")),
 ];
 
 /// Where a template came from.

@@ -3,7 +3,9 @@
 use twistlot_model::{
     AttributePlan, Capability, CapabilityMethod, CharacteristicClass, CharacteristicStats, ClassDecision,
     CurveMetrics, Disposition, DuplicateFile, Finding, Ground, GroundTopic, LotDecision, LotRecord, PartSpec,
-    PlanSummary, RejectedFile, Severity, ShiftRecord, SupersededTest, TestRecord, TestStatus, Verdict,
+    PlanComparison, PlanSummary, PlannedAgainstTested, ReferenceCheck, RejectedFile, RigVerification,
+    Severity, ShiftRecord, SupersededTest, TestRecord, TestStatus, TestedOnRefusedRig, Verdict,
+    VerificationStatus,
 };
 use twistlot_report::*;
 
@@ -278,6 +280,8 @@ fn shift_record(lots: Vec<LotRecord>) -> ShiftRecord {
         switching_record: None,
         cautions: default_cautions(),
         duplicates: Vec::new(),
+        rig_verifications: Vec::new(),
+        plan: None,
     }
 }
 
@@ -308,6 +312,155 @@ fn shift_summary_flags_held_and_rejected_lots() {
     let calm = ShiftSummary { summary: shift_record(vec![accepted]), ..summary };
     let html = renderer().render("shift_summary.html.j2", &calm).unwrap();
     assert!(html.contains("ALL 1 ACCEPTED") && html.contains("decision-accept"));
+}
+
+#[test]
+fn shift_summary_lists_rig_verifications_and_the_plan_against_reality() {
+    let mut record = shift_record(vec![lot(Disposition::Hold).lot]);
+    record.rig_verifications = vec![
+        RigVerification {
+            rig: "RIG-A".into(),
+            reference: Some("REF-A".into()),
+            status: VerificationStatus::Verified,
+            reason: "verified".into(),
+            checks: vec![ReferenceCheck {
+                file: "a/REF-A.csv".into(),
+                serial: "REF-A".into(),
+                started: None,
+                check_angle_deg: 90.0,
+                certified_torque_nmm: 1800.0,
+                measured_torque_nmm: Some(1803.0),
+                deviation_pct: Some(0.1667),
+                allowed_deviation_pct: 1.0,
+                passed: true,
+            }],
+        },
+        RigVerification {
+            rig: format!("RIG-{EVIL}"),
+            reference: None,
+            status: VerificationStatus::Missing,
+            reason: "no reference-spring export of REF-B was found in this shift".into(),
+            checks: Vec::new(),
+        },
+    ];
+    record.plan = Some(PlanComparison {
+        plan_file: "out/plan.json".into(),
+        method: "atcs+local-search".into(),
+        lots: vec![PlannedAgainstTested {
+            lot: "L-0517".into(),
+            planned_rig: Some("RIG-D".into()),
+            planned_samples: Some(32),
+            planned_start: Some("2026-12-01T17:46:40".into()),
+            unplanned_reason: None,
+            tested: 31,
+            tested_rigs: vec!["RIG-C".into()],
+            remarks: vec!["planned on RIG-D, tested on RIG-C".into()],
+        }],
+        tested_on_refused_rigs: vec![TestedOnRefusedRig {
+            lot: "L-0517".into(),
+            rig: "RIG-C".into(),
+            tests: 31,
+            reasons: vec!["the rig's calibration runs out".into()],
+        }],
+    });
+    let summary =
+        ShiftSummary { generated_at: "now".into(), plant: "Invented plant".into(), summary: record };
+    let html = renderer().render("shift_summary.html.j2", &summary).unwrap();
+    assert!(html.contains("Rig verifications with reference springs"));
+    assert!(
+        html.contains("<td class=\"num\">1803.0</td>") && html.contains("<td class=\"num\">0.17</td>"),
+        "{html}"
+    );
+    assert!(html.contains("verdict-pass") && html.contains(">missing</span>"));
+    assert!(!html.contains(EVIL), "rig names from the config are escaped");
+    assert!(html.contains("Plan against reality") && html.contains("1 OFF PLAN"));
+    assert!(
+        html.contains("<b>L-0517</b> on RIG-C (31 tests): the rig&#x27;s calibration runs out"),
+        "{html}"
+    );
+    assert!(html.contains("2026-12-01 17:46:40"));
+    // Without them, neither section appears.
+    let plain = ShiftSummary {
+        generated_at: "now".into(),
+        plant: "Invented plant".into(),
+        summary: shift_record(vec![lot(Disposition::Accept).lot]),
+    };
+    let html = renderer().render("shift_summary.html.j2", &plain).unwrap();
+    assert!(!html.contains("Rig verifications") && !html.contains("Plan against reality"));
+}
+
+#[test]
+fn the_plan_page_and_work_list_render_what_the_pipeline_gives() {
+    let plan = serde_json::json!({
+        "shift": "S-1", "lot_list": "shift/lots.yaml", "method": "atcs+local-search",
+        "shift_start": "2026-12-01T14:00:00", "shift_end": "2026-12-01T22:00:00",
+        "dispatch_rule": null, "rule_errors": [], "notes": ["a note"],
+        "assignments": [{
+            "lot": EVIL, "part": "P", "rig": "RIG-A", "samples": 20, "start": "2026-12-01T14:00:31",
+            "test_start": "2026-12-01T14:05:31", "end": "2026-12-01T14:17:51", "setup_s": 300,
+            "start_s": 31, "end_s": 1071, "arbor_mm": 16.0, "fixture": "P",
+            "due": "2026-12-02T10:00:00", "tardiness_s": 0, "weight": 1.0
+        }],
+        "checks": [{ "rig": "RIG-A", "reference": "REF-A", "start": "2026-12-01T14:00:00",
+                     "end": "2026-12-01T14:00:31", "start_s": 0, "end_s": 31 }],
+        "unscheduled": [{ "lot": "L-9", "part": "Q", "samples": 13, "kind": "no-eligible-rig", "reason": "no rig may test it" }],
+        "refusals": [{ "lot": "L-9", "rig": "RIG-A", "kind": "torque-window", "reason": "too strong" }],
+        "metrics": { "weighted_tardiness_s": 0.0, "makespan_s": 1071, "makespan_lower_bound_s": 1071,
+                     "weighted_tardiness_lower_bound_s": 0.0, "lots_assigned": 1, "lots_unscheduled": 1,
+                     "total_setup_s": 300 },
+        "lots": [{ "lot": "L-9", "part": "Q", "quantity": 60, "severity": "normal", "samples": 13,
+                   "sample_basis": "critical zero acceptance", "max_torque_nmm": 7387.2, "torque_basis": "rate",
+                   "wound_down_inside_d_mm": 34.1, "fixture": "Q" }]
+    });
+    let gantt =
+        gantt_svg(&[GanttRow { label: "RIG-A".into(), bars: Vec::new() }], 28_800.0, 50_400.0, "plan")
+            .unwrap();
+    let page = PlanReport {
+        generated_at: "now".into(),
+        plant: "Invented plant".into(),
+        plan,
+        gantt_svg: gantt,
+        worklists: vec!["worklist-RIG-A.csv".into()],
+        cautions: plan_cautions(),
+    };
+    let html = renderer().render("plan.html.j2", &page).unwrap();
+    assert_eq!(html.matches("<svg").count(), 1);
+    assert!(html.contains("1 LEFT OUT") && html.contains("<b>L-9</b> (Q): no rig may test it"));
+    assert!(!html.contains(EVIL) && html.contains("&lt;script&gt;"));
+    // Times of the shift's own day show as clock times; other days with month and day.
+    assert!(html.contains(">14:05<") && html.contains(">12-02 10:00<"), "{html}");
+    assert!(html.contains("href=\"./worklist-RIG-A.csv\""));
+    assert!(html.contains("stores energy"));
+
+    let list = WorklistCsv {
+        rig: "RIG-A".into(),
+        shift: "S-1".into(),
+        generated_at: "now".into(),
+        cautions: plan_cautions(),
+        steps: vec![WorkStep {
+            step: 1,
+            kind: "reference-check".into(),
+            start: "2026-12-01T14:00:00".into(),
+            end: "2026-12-01T14:00:31".into(),
+            lot: String::new(),
+            part: "REF-A".into(),
+            samples: 1,
+            arbor_mm: None,
+            fixture: String::new(),
+            ship_by: None,
+            instruction: "verify the rig, then test \"nothing\", yet".into(),
+        }],
+    };
+    let csv = renderer().render("worklist.csv.j2", &list).unwrap();
+    let lines: Vec<&str> = csv.lines().collect();
+    assert!(lines[0].starts_with("# Work list for rig RIG-A"));
+    assert!(lines.iter().take_while(|l| l.starts_with('#')).any(|l| l.contains("leave a fixture violently")));
+    let data: Vec<&str> = lines.iter().copied().skip_while(|l| l.starts_with('#')).collect();
+    assert_eq!(data[0], "step,kind,start,end,lot,part,samples,arbor_mm,fixture,ship_by,instruction");
+    assert_eq!(
+        data[1],
+        "1,reference-check,2026-12-01T14:00:00,2026-12-01T14:00:31,,REF-A,1,,,,\"verify the rig, then test \"\"nothing\"\", yet\""
+    );
 }
 
 #[test]

@@ -23,6 +23,12 @@
 //! and otherwise accepts or rejects on the statistic. Tests that name another part than
 //! the lot's hold an otherwise accepted lot. The lot's disposition is the worst of its
 //! parts' (reject over hold over accept).
+//!
+//! Tests from a rig whose reference-spring verification failed or is missing
+//! ([`UnverifiedRig`]) do not stand at all: the lot is held whatever the plans show,
+//! because a rig that reads wrong can fake a rejection as easily as an acceptance. The
+//! plans' counts stay in the decision for the report; a held lot never counts toward the
+//! part's switching state.
 
 use crate::design::{design_variables, variables_verdict, LimitKind};
 use crate::scheme::{InspectionLevel, Scheme, Severity};
@@ -75,6 +81,17 @@ pub struct LotStanding {
     pub explanation: String,
 }
 
+/// A rig that tested some of the lot's parts without a passing reference-spring check.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct UnverifiedRig {
+    /// The rig.
+    pub rig: String,
+    /// The lot's counted tests that ran on it.
+    pub tests: u64,
+    /// Why the rig is not verified (failed check, no check), in words.
+    pub reason: String,
+}
+
 /// Everything needed to decide one lot.
 #[derive(Debug, Clone)]
 pub struct LotInput<'a> {
@@ -95,6 +112,9 @@ pub struct LotInput<'a> {
     pub variables_normality_p: Option<f64>,
     /// What the variables plan does on values that fail normality.
     pub non_normal: NonNormalRule,
+    /// Rigs that tested some of the lot's parts but are not verified by their reference
+    /// spring in this shift (empty when all are, or when the plant checks none).
+    pub unverified_rigs: &'a [UnverifiedRig],
 }
 
 /// The c = 0 plan: the normal table's sample size for the letter at every severity (the
@@ -150,6 +170,69 @@ pub fn class_plans(
     Ok(plans)
 }
 
+/// How many parts of a lot the part's sampling agreement asks to test at a severity.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RequiredSample {
+    /// The largest n among the plans: testing this many serves every plan.
+    pub sample_size: u64,
+    /// Each plan's n, in words (`major AQL 1 % (letter G, reduced): 13`), most serious first.
+    pub plans: Vec<(String, u64)>,
+    /// The plan that asks for the most (the first of equals).
+    pub set_by: String,
+}
+
+/// The parts to test from a lot of `lot_size` at `severity`: the largest n over the
+/// attribute plan of every class the spec samples ([`class_plans`]) and its variables plan
+/// (designed as [`decide_lot`] designs it, at most the lot size). Refused, with the reason,
+/// when the spec names no sampling agreement or a plan cannot be looked up or designed.
+pub fn required_sample(
+    spec: &PartSpec,
+    scheme: &Scheme,
+    lot_size: u64,
+    severity: Severity,
+) -> Result<RequiredSample, SamplingError> {
+    let sampling = spec.sampling.as_ref().ok_or_else(|| {
+        SamplingError::NoPlan(format!("the spec for `{}` names no sampling agreement", spec.part))
+    })?;
+    let mut plans = Vec::new();
+    for (class, plan, aql_pct) in class_plans(sampling, scheme, lot_size, severity)? {
+        let rule = match aql_pct {
+            Some(aql) => format!("AQL {aql} %"),
+            None => "zero acceptance".to_string(),
+        };
+        plans.push((
+            format!("{class} {rule} (letter {}, {})", plan.code_letter, plan.severity),
+            plan.sample_size,
+        ));
+    }
+    if let Some(vp) = &sampling.variables {
+        let kind = characteristic_limits(spec, &vp.characteristic)
+            .as_ref()
+            .and_then(LimitKind::of)
+            .ok_or_else(|| {
+                SamplingError::NoPlan(format!(
+                    "the variables plan on `{}` has no limits in the spec to design against",
+                    vp.characteristic
+                ))
+            })?;
+        let design = design_variables(vp.aql_pct, vp.alpha, vp.ltpd_pct, vp.beta, vp.sigma.is_some(), kind)?;
+        plans.push((
+            format!("variables on {} (AQL {} %, LTPD {} %)", vp.characteristic, vp.aql_pct, vp.ltpd_pct),
+            design.sample_size.min(lot_size.max(1)),
+        ));
+    }
+    let Some((set_by, sample_size)) =
+        plans.iter().fold(None, |best: Option<(&String, u64)>, (label, n)| match best {
+            Some((_, m)) if m >= *n => best,
+            _ => Some((label, *n)),
+        })
+    else {
+        return Err(SamplingError::NoPlan(format!("the spec for `{}` samples no class", spec.part)));
+    };
+    let set_by = set_by.clone();
+    Ok(RequiredSample { sample_size, plans, set_by })
+}
+
 fn class_plan(sampling: &SamplingSpec, class: CharacteristicClass) -> &ClassPlan {
     match class {
         CharacteristicClass::Critical => &sampling.critical,
@@ -199,8 +282,59 @@ pub fn characteristic_value(test: &TestRecord, characteristic: &str) -> Option<f
 
 /// Decides a lot under the scheme its spec names, looked up with `scheme` (see the module
 /// doc for the rule). A spec without a sampling agreement, or naming a scheme that is not
-/// there, holds the lot with that reason.
+/// there, holds the lot with that reason; so does a test from an unverified rig.
 pub fn decide_lot<'s>(input: &LotInput<'_>, scheme: impl FnOnce(&str) -> Option<&'s Scheme>) -> LotDecision {
+    let mut decision = decide_on_plans(input, scheme);
+    if !input.unverified_rigs.is_empty() {
+        hold_for_unverified_rigs(&mut decision, input.unverified_rigs);
+    }
+    decision
+}
+
+/// Holds a decided lot because some of its tests ran on rigs that are not verified: the
+/// first such ground decides, whatever the plans concluded.
+fn hold_for_unverified_rigs(decision: &mut LotDecision, rigs: &[UnverifiedRig]) {
+    let first = decision.grounds.len();
+    for rig in rigs {
+        decision.grounds.push(Ground::leading(
+            GroundTopic::Evidence,
+            Disposition::Hold,
+            format!(
+                "rig {}: {}; {} of this lot do not stand: hold until the parts are retested on a rig that \
+                 is calibrated and has passed its reference-spring check",
+                rig.rig,
+                rig.reason,
+                plural(rig.tests, "test")
+            ),
+        ));
+    }
+    if decision.disposition != Disposition::Hold {
+        let was = decision.disposition;
+        decision.grounds.push(Ground::note(
+            GroundTopic::Evidence,
+            format!(
+                "the sampling plans alone would {}; that result is set aside with the rig's readings",
+                verb(was)
+            ),
+        ));
+    }
+    decision.disposition = Disposition::Hold;
+    decision.deciding = Some(first);
+    // The count stays for the record; a held lot is never replayed into the switching state.
+    if let Some(count) = decision.switching.as_mut() {
+        count.between_ac_and_re = false;
+    }
+}
+
+fn verb(disposition: Disposition) -> &'static str {
+    match disposition {
+        Disposition::Accept => "accept",
+        Disposition::Reject => "reject",
+        Disposition::Hold => "hold",
+    }
+}
+
+fn decide_on_plans<'s>(input: &LotInput<'_>, scheme: impl FnOnce(&str) -> Option<&'s Scheme>) -> LotDecision {
     let spec = input.spec;
     let severity = input.standing.map_or(Severity::Normal, |s| s.severity);
     let Some(sampling) = &spec.sampling else {
@@ -702,6 +836,7 @@ mod tests {
             beyond_sample,
             variables_normality_p: None,
             non_normal: NonNormalRule::Hold,
+            unverified_rigs: &[],
         };
         let scheme = scheme();
         decide_lot(&input, |name| (name == scheme.name).then_some(&scheme))
@@ -929,6 +1064,7 @@ mod tests {
                 beyond_sample: BeyondSample::FirstN,
                 variables_normality_p: p,
                 non_normal,
+                unverified_rigs: &[],
             };
             decide_lot(&input, |name| (name == scheme.name).then_some(&scheme))
         };
@@ -942,6 +1078,78 @@ mod tests {
         assert_eq!(handed.disposition, Disposition::Hold, "{:?}", texts(&handed));
         assert!(handed.variables.is_none());
         assert!(texts(&handed).iter().any(|t| t.contains("no attribute plan is left")));
+    }
+
+    #[test]
+    fn the_required_sample_is_the_largest_plan_at_the_severity() {
+        let scheme = scheme();
+        // From memory: MIL-STD-105E Table I, lot 1000 level II → J; Table II-A J AQL 1.0: n 80.
+        let need = required_sample(&spec(), &scheme, 1000, Severity::Normal).unwrap();
+        assert_eq!(need.sample_size, 80);
+        assert_eq!(need.plans.len(), 1);
+        // From memory: MIL-STD-105E Table II-C (reduced) letter J: n 32.
+        let reduced = required_sample(&spec(), &scheme, 1000, Severity::Reduced).unwrap();
+        assert_eq!(reduced.sample_size, 32);
+        // A zero-acceptance critical class keeps the normal n 80 under reduced inspection.
+        let mut with_critical = spec();
+        with_critical.sampling.as_mut().unwrap().critical = ClassPlan::ZeroAcceptance;
+        let need = required_sample(&with_critical, &scheme, 1000, Severity::Reduced).unwrap();
+        assert_eq!(need.sample_size, 80);
+        assert!(need.set_by.starts_with("critical zero acceptance"), "{}", need.set_by);
+        // The variables plan's n is the one decide_lot designs (checked there to exceed 41).
+        let variables = required_sample(&variables_spec(), &scheme, 1000, Severity::Normal).unwrap();
+        let d = decide(&variables_spec(), &with_rates(&spread(100, 4.0, 0.1)), None);
+        assert_eq!(variables.sample_size, d.variables.as_ref().unwrap().sample_size);
+        assert!(variables.set_by.starts_with("variables on rate"), "{}", variables.set_by);
+        // No agreement: refused with the reason.
+        let mut none = spec();
+        none.sampling = None;
+        let err = required_sample(&none, &scheme, 1000, Severity::Normal).unwrap_err();
+        assert!(err.to_string().contains("names no sampling agreement"), "{err}");
+    }
+
+    #[test]
+    fn tests_from_an_unverified_rig_hold_the_lot_whatever_the_plans_say() {
+        let rigs = [UnverifiedRig {
+            rig: "RIG-D".into(),
+            tests: 80,
+            reason: "its reference-spring check failed (deviation 2.5 %, allowed 1 %)".into(),
+        }];
+        for (tests, plans_say) in
+            [(tests_with(80, 0), Disposition::Accept), (tests_with(80, 3), Disposition::Reject)]
+        {
+            let refs: Vec<&TestRecord> = tests.iter().collect();
+            let spec = spec();
+            let scheme = scheme();
+            let mut input = LotInput {
+                lot: "L1",
+                lot_size: 1000,
+                spec: &spec,
+                standing: None,
+                tests: &refs,
+                beyond_sample: BeyondSample::FirstN,
+                variables_normality_p: None,
+                non_normal: NonNormalRule::Hold,
+                unverified_rigs: &[],
+            };
+            let plain = decide_lot(&input, |name| (name == scheme.name).then_some(&scheme));
+            assert_eq!(plain.disposition, plans_say);
+            input.unverified_rigs = &rigs;
+            let d = decide_lot(&input, |name| (name == scheme.name).then_some(&scheme));
+            assert_eq!(d.disposition, Disposition::Hold, "{:?}", texts(&d));
+            let deciding = d.deciding_ground().unwrap();
+            assert_eq!(deciding.topic, GroundTopic::Evidence);
+            assert!(
+                deciding.text.starts_with("rig RIG-D: its reference-spring check failed"),
+                "{}",
+                deciding.text
+            );
+            assert!(deciding.text.contains("; 80 tests of this lot do not stand: hold"), "{}", deciding.text);
+            assert!(texts(&d).iter().any(|t| t.contains(&format!("alone would {}", verb(plans_say)))));
+            // The plans' counts and severity stay for the report and the record.
+            assert_eq!(d.classes.len(), plain.classes.len());
+            assert_eq!(d.severity, plain.severity);
+        }
     }
 
     #[test]

@@ -23,8 +23,9 @@ pub mod scheme;
 pub mod switching;
 
 pub use decision::{
-    characteristic_limits, characteristic_value, class_plans, decide_lot, zero_acceptance_plan, BeyondSample,
-    LotInput, LotStanding, NonNormalRule, NORMALITY_REJECT_P,
+    characteristic_limits, characteristic_value, class_plans, decide_lot, required_sample,
+    zero_acceptance_plan, BeyondSample, LotInput, LotStanding, NonNormalRule, RequiredSample, UnverifiedRig,
+    NORMALITY_REJECT_P,
 };
 pub use design::{
     design_attribute, design_variables, variables_verdict, AttributeDesign, LimitKind, VariablesDesign,

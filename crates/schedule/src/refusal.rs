@@ -170,14 +170,22 @@ pub enum Unplanned {
         /// The rigs that may test it.
         rigs: Vec<String>,
     },
+    /// The caller could not say what the lot needs (no spec for its part, no sampling
+    /// agreement…), so it never became a [`crate::Job`]. The planner itself never gives
+    /// this; the caller adds such lots to the plan's list so none goes unmentioned.
+    NotPlannable {
+        /// Why, in words.
+        reason: String,
+    },
 }
 
 impl Unplanned {
-    /// A stable short code (`no-eligible-rig`, `no-time-left`).
+    /// A stable short code (`no-eligible-rig`, `no-time-left`, `not-plannable`).
     pub fn kind(&self) -> &'static str {
         match self {
             Unplanned::NoEligibleRig { .. } => "no-eligible-rig",
             Unplanned::NoTimeLeft { .. } => "no-time-left",
+            Unplanned::NotPlannable { .. } => "not-plannable",
         }
     }
 }
@@ -199,6 +207,7 @@ impl fmt::Display for Unplanned {
                  free or their calibration runs out, without leaving out other lots",
                 rigs.join(", ")
             ),
+            Unplanned::NotPlannable { reason } => write!(f, "it cannot be planned: {reason}"),
         }
     }
 }

@@ -110,6 +110,9 @@ fn check_plan(instance: &Instance, plan: &Plan) -> Result<(), TestCaseError> {
                 prop_assert!(!open.is_empty());
                 prop_assert!(open.iter().all(|r| !refusing.contains(r.as_str())));
             }
+            Unplanned::NotPlannable { reason } => {
+                prop_assert!(false, "the planner never leaves a job out as not plannable: {}", reason);
+            }
         }
         prop_assert!(!u.reason.to_string().is_empty());
         prop_assert_eq!(u.samples, jobs[u.lot.as_str()].samples);

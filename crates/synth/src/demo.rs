@@ -5,6 +5,11 @@
 //! defect. Each part's rate follows its wire diameter (rate ∝ d⁴ at fixed coil
 //! geometry, EN 13906-3's rate formula), so a lot's rate spread is physical. A lot with
 //! a `swing` section is tested by free swing instead: its exports are free-decay records.
+//!
+//! A rig may also check its reference ("master") spring at the start of the shift: the
+//! generator then writes one export of that spring reading the torque the plan says at
+//! its check angle. Those draws come from their own seeded stream, so adding or changing
+//! a reference check never changes a lot's exports.
 
 use crate::decay::{DecayError, DecayModel};
 use crate::spring::SpringModel;
@@ -126,6 +131,24 @@ pub struct DemoRig {
     pub format: String,
     /// Operator on this rig during the shift.
     pub operator: String,
+    /// The reference-spring check the rig runs at the start of the shift, if any.
+    #[serde(default)]
+    pub reference: Option<DemoReference>,
+}
+
+/// A reference-spring check in the demo shift.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DemoReference {
+    /// Serial of the reference spring (as the plant config records it).
+    pub serial: String,
+    /// Angle the spring is checked at, degrees.
+    pub check_angle_deg: f64,
+    /// Torque the rig reads there on the loading stroke, N·mm (set it off the certified
+    /// torque to plant a failing check).
+    pub reads_nmm: f64,
+    /// Time of day the check starts, `HH:MM`.
+    pub at: String,
 }
 
 /// One lot of the demo shift.
@@ -138,10 +161,23 @@ pub struct DemoLot {
     pub part: String,
     /// Parts in the lot.
     pub quantity: u32,
-    /// Rig the lot is tested on.
-    pub rig: String,
-    /// Parts tested.
+    /// Rig the lot is tested on (needed when `tests` is above 0).
+    #[serde(default)]
+    pub rig: Option<String>,
+    /// Parts tested (0: the lot is listed but no rig tested it).
     pub tests: usize,
+    /// Time of day the first test starts, `HH:MM` (default 14:00); tests follow every 3 minutes.
+    #[serde(default)]
+    pub tests_from: Option<String>,
+    /// When the lot comes off the coiler (written to the lot list).
+    #[serde(default)]
+    pub ready: Option<String>,
+    /// Its weight in the lot list.
+    #[serde(default)]
+    pub weight: Option<f64>,
+    /// The coiler that made it.
+    #[serde(default)]
+    pub coiler: Option<String>,
     /// Standard deviation of wire diameter, % of nominal.
     pub wire_sd_pct: f64,
     /// Mean free-angle offset of the lot, degrees (a setting drift).
@@ -162,6 +198,16 @@ pub struct DemoLot {
     pub swing: Option<DemoSwing>,
 }
 
+/// The shift's hours as the lot list writes them.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DemoHours {
+    /// Start, plant-local `YYYY-MM-DDTHH:MM`.
+    pub start: String,
+    /// End.
+    pub end: String,
+}
+
 /// The demo shift plan.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -172,6 +218,9 @@ pub struct DemoPlan {
     pub shift: String,
     /// Date the shift's tests are stamped with (`YYYY-MM-DD`).
     pub date: String,
+    /// The shift's hours, written into the lot list for planning.
+    #[serde(default)]
+    pub hours: Option<DemoHours>,
     /// Rigs.
     pub rigs: Vec<DemoRig>,
     /// Lots.
@@ -197,6 +246,12 @@ pub struct GeneratedFile {
 /// Why the demo cannot be generated.
 #[derive(Debug, thiserror::Error)]
 pub enum DemoError {
+    /// A lot with tests names no rig.
+    #[error("lot `{0}` has tests but names no rig to test it on")]
+    NoRig(String),
+    /// A time of day that is not `HH:MM`.
+    #[error("`{0}` is not a time of day (write HH:MM)")]
+    BadClock(String),
     /// The plan names a rig that is not in its rig list.
     #[error("lot `{lot}` is tested on rig `{rig}`, which the plan does not list")]
     UnknownRig {
@@ -257,25 +312,40 @@ pub fn generate_shift(
 ) -> Result<Vec<GeneratedFile>, DemoError> {
     let mut rng = ChaCha8Rng::seed_from_u64(plan.seed);
     let mut files = Vec::new();
-    let mut lot_list = String::from(
-        "# Lots waiting for a decision at the end of the shift (written by the generator).\nlots:\n",
-    );
+    let mut lot_list =
+        String::from("# Lots waiting for a decision at the end of the shift (written by the generator).\n");
+    if let Some(hours) = &plan.hours {
+        lot_list.push_str(&format!("shift: {{ start: \"{}\", end: \"{}\" }}\n", hours.start, hours.end));
+    }
+    lot_list.push_str("lots:\n");
+    files.extend(reference_checks(plan, formats)?);
     for lot in &plan.lots {
-        let rig = plan
-            .rigs
-            .iter()
-            .find(|r| r.name == lot.rig)
-            .ok_or_else(|| DemoError::UnknownRig { lot: lot.lot.clone(), rig: lot.rig.clone() })?;
         let spec = specs
             .get(&lot.part)
             .ok_or_else(|| DemoError::UnknownPart { lot: lot.lot.clone(), part: lot.part.clone() })?;
         lot_list.push_str(&format!(
-            "  - {{ lot: {}, part: {}, quantity: {}{} }}\n",
+            "  - {{ lot: {}, part: {}, quantity: {}{}{}{}{} }}\n",
             lot.lot,
             lot.part,
             lot.quantity,
-            lot.ship_by.as_ref().map(|s| format!(", ship_by: \"{s}\"")).unwrap_or_default()
+            lot.ready.as_ref().map(|s| format!(", ready: \"{s}\"")).unwrap_or_default(),
+            lot.ship_by.as_ref().map(|s| format!(", ship_by: \"{s}\"")).unwrap_or_default(),
+            lot.weight.map(|w| format!(", weight: {w}")).unwrap_or_default(),
+            lot.coiler.as_ref().map(|c| format!(", coiler: {c}")).unwrap_or_default(),
         ));
+        if lot.tests == 0 {
+            continue;
+        }
+        let rig_name = lot.rig.as_ref().ok_or_else(|| DemoError::NoRig(lot.lot.clone()))?;
+        let rig = plan
+            .rigs
+            .iter()
+            .find(|r| &r.name == rig_name)
+            .ok_or_else(|| DemoError::UnknownRig { lot: lot.lot.clone(), rig: rig_name.clone() })?;
+        let first_minute = match &lot.tests_from {
+            Some(clock) => minutes_of_day(clock)?,
+            None => 14 * 60,
+        };
         let nominal_rate = spec.characteristics.rate_nmm_per_deg.as_ref().map(|r| r.nominal).unwrap_or(1.0);
         let nominal_free = spec.characteristics.free_angle_deg.as_ref().map(|f| f.nominal).unwrap_or(0.0);
         let wire = Normal::new(1.0, lot.wire_sd_pct / 100.0).map_err(|_| DemoError::UnknownPart {
@@ -283,7 +353,7 @@ pub fn generate_shift(
             part: format!("{} (wire_sd_pct must be ≥ 0)", lot.part),
         })?;
         if let Some(swing) = &lot.swing {
-            files.extend(swing_lot(plan, lot, rig, spec, swing, &wire, formats, &mut rng)?);
+            files.extend(swing_lot(plan, lot, rig, spec, swing, &wire, formats, first_minute, &mut rng)?);
             continue;
         }
         for index in 1..=lot.tests {
@@ -318,16 +388,8 @@ pub fn generate_shift(
                 }
             }
             let curve = model.simulate(&mut rng);
-            let metadata = test_metadata(plan, lot, rig, &serial, index);
-            let mut bytes = if rig.format == "gantry-json" {
-                write_gantry_json(&metadata, &curve)
-            } else {
-                let manifest = formats.get(&rig.format).ok_or_else(|| DemoError::UnknownFormat {
-                    rig: rig.name.clone(),
-                    format: rig.format.clone(),
-                })?;
-                write_layout(manifest, &WriteStyle::for_format(&rig.format), &metadata, &curve)?
-            };
+            let metadata = test_metadata(plan, lot, rig, &serial, first_minute + index * 3);
+            let mut bytes = write_export(rig, formats, &metadata, &curve)?;
             for broken in lot.broken.iter().filter(|b| b.part_index == index) {
                 bytes = break_file(bytes, broken.breakage);
             }
@@ -341,22 +403,22 @@ pub fn generate_shift(
     Ok(files)
 }
 
-/// The metadata every demo export carries: serial, part, lot, rig, operator, start time.
+/// The metadata every demo export carries: serial, part, lot, rig, operator, and the start
+/// time `minute` minutes after midnight of the plan's date.
 fn test_metadata(
     plan: &DemoPlan,
     lot: &DemoLot,
     rig: &DemoRig,
     serial: &str,
-    index: usize,
+    minute: usize,
 ) -> Vec<(&'static str, String)> {
-    let minute = index * 3;
     vec![
         ("serial", serial.to_string()),
         ("part", lot.part.clone()),
         ("lot", lot.lot.clone()),
         ("rig", rig.name.clone()),
         ("operator", rig.operator.clone()),
-        ("started", format!("{}T{:02}:{:02}", plan.date, 14 + minute / 60, minute % 60)),
+        ("started", format!("{}T{:02}:{:02}", plan.date, minute / 60, minute % 60)),
     ]
 }
 
@@ -370,6 +432,7 @@ fn swing_lot(
     swing: &DemoSwing,
     wire: &Normal<f64>,
     formats: &BTreeMap<String, RigFormatManifest>,
+    first_minute: usize,
     rng: &mut ChaCha8Rng,
 ) -> Result<Vec<GeneratedFile>, DemoError> {
     let manifest = formats
@@ -408,7 +471,7 @@ fn swing_lot(
         }
         let record =
             model.simulate(rng.gen()).map_err(|source| DemoError::Decay { lot: lot.lot.clone(), source })?;
-        let mut metadata = test_metadata(plan, lot, rig, &serial, index);
+        let mut metadata = test_metadata(plan, lot, rig, &serial, first_minute + index * 3);
         metadata.push(("record", "free-decay".to_string()));
         metadata.push(("inertia_kgm2", format!("{}", swing.inertia_kgm2)));
         let mut bytes =
@@ -419,6 +482,78 @@ fn swing_lot(
         files.push(GeneratedFile {
             relative_path: format!("{}/{}.{}", rig.name.to_lowercase(), serial, extension(&rig.format)),
             bytes,
+        });
+    }
+    Ok(files)
+}
+
+/// Minutes after midnight of an `HH:MM` time of day.
+fn minutes_of_day(clock: &str) -> Result<usize, DemoError> {
+    let bad = || DemoError::BadClock(clock.to_string());
+    let (hours, minutes) = clock.split_once(':').ok_or_else(bad)?;
+    let (hours, minutes): (usize, usize) =
+        (hours.parse().map_err(|_| bad())?, minutes.parse().map_err(|_| bad())?);
+    if hours > 23 || minutes > 59 {
+        return Err(bad());
+    }
+    Ok(hours * 60 + minutes)
+}
+
+/// One export in the rig's own format.
+fn write_export(
+    rig: &DemoRig,
+    formats: &BTreeMap<String, RigFormatManifest>,
+    metadata: &[(&str, String)],
+    curve: &twistlot_model::CurveData,
+) -> Result<Vec<u8>, DemoError> {
+    if rig.format == "gantry-json" {
+        return Ok(write_gantry_json(metadata, curve));
+    }
+    let manifest = formats
+        .get(&rig.format)
+        .ok_or_else(|| DemoError::UnknownFormat { rig: rig.name.clone(), format: rig.format.clone() })?;
+    Ok(write_layout(manifest, &WriteStyle::for_format(&rig.format), metadata, curve)?)
+}
+
+/// Seed offset of the reference checks' own random stream.
+const REFERENCE_STREAM: u64 = 0x5EF5_0001;
+
+/// The reference-spring exports of the rigs that check one: a plain linear spring driven
+/// a little past its check angle, reading `reads_nmm` there on the loading stroke (before
+/// noise), with light friction.
+fn reference_checks(
+    plan: &DemoPlan,
+    formats: &BTreeMap<String, RigFormatManifest>,
+) -> Result<Vec<GeneratedFile>, DemoError> {
+    let mut rng = ChaCha8Rng::seed_from_u64(plan.seed ^ REFERENCE_STREAM);
+    let mut files = Vec::new();
+    for rig in &plan.rigs {
+        let Some(reference) = &rig.reference else { continue };
+        let minute = minutes_of_day(&reference.at)?;
+        let angle = reference.check_angle_deg;
+        let mut model = SpringModel::new(1.0, 0.0, angle * 1.2);
+        model.friction_share = 0.002;
+        model.friction_nmm = 0.0;
+        // Loading torque at the check angle is rate·α·(1 + friction share).
+        model.rate_nmm_per_deg = reference.reads_nmm / (angle * (1.0 + model.friction_share));
+        model.torque_noise_nmm = 0.0005 * reference.reads_nmm;
+        model.points_per_stroke = 150;
+        let curve = model.simulate(&mut rng);
+        let metadata = vec![
+            ("serial", reference.serial.clone()),
+            ("part", "reference spring".to_string()),
+            ("rig", rig.name.clone()),
+            ("operator", rig.operator.clone()),
+            ("started", format!("{}T{:02}:{:02}", plan.date, minute / 60, minute % 60)),
+        ];
+        files.push(GeneratedFile {
+            relative_path: format!(
+                "{}/{}.{}",
+                rig.name.to_lowercase(),
+                reference.serial,
+                extension(&rig.format)
+            ),
+            bytes: write_export(rig, formats, &metadata, &curve)?,
         });
     }
     Ok(files)

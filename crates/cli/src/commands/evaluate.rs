@@ -61,11 +61,14 @@ pub fn run(args: Args) -> Result<ExitCode> {
         (None, None) => SpecSource::None,
     };
     let (files, missing) = expand_inputs(&args.paths);
+    // Reference-spring exports are read at their check angle, not judged against a part spec.
+    let references = twistlot_pipeline::reference::reference_angles(&plant);
     let options = EvaluateOptions {
         window: args.window,
         rig_format: args.rig_format.clone(),
         preview_points: 0,
         physics: plant.physics(),
+        reference_angles: references.clone(),
     };
     let mut tests: Vec<TestRecord> = Vec::new();
     let mut rejected: Vec<twistlot_ingest::IngestError> = missing;
@@ -118,7 +121,11 @@ pub fn run(args: Args) -> Result<ExitCode> {
                     if swing { "—".into() } else { format!("{:.1}", t.metrics.max_torque_nmm) },
                     fmt(theory.map(|th| th.rate_nmm_per_deg), 4),
                     fmt(theory.and_then(|th| th.ratio), 3),
-                    t.verdict.map(|v| v.to_string()).unwrap_or_else(|| "no spec".into()),
+                    match (t.verdict, t.serial.as_deref().is_some_and(|s| references.contains_key(s))) {
+                        (Some(v), _) => v.to_string(),
+                        (None, true) => "reference spring".into(),
+                        (None, false) => "no spec".into(),
+                    },
                     notes.join("; "),
                 ]);
             }

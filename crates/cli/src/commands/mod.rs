@@ -2,6 +2,7 @@
 
 pub mod evaluate;
 pub mod ingest;
+pub mod plan;
 pub mod plugins;
 pub mod sampling;
 pub mod shift;

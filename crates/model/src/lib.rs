@@ -34,12 +34,13 @@ pub use capability::{Absent, AbsentReason, Capability, CapabilityMethod, FittedD
 pub use curve::{CurveData, Stroke};
 pub use lot_list::{ListedLot, LotList};
 pub use metadata::TestMetadata;
-pub use plant_time::{BadTime, ClockTime, PlantTime};
+pub use plant_time::{BadTime, ClockTime, PlantOffset, PlantTime};
 pub use plugin::{Manifest, PluginHeader, PluginKind};
 pub use record::{
-    AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, Disposition, DuplicateFile, Ground,
-    GroundTopic, InspectionState, LotDecision, LotRecord, PlanSummary, RateSummary, RejectedFile, Severity,
-    ShiftRecord, SupersededTest, SwitchingCount, TestRecord, TestStatus, UnknownLabel, VariablesDecision,
+    Approval, AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, DecidingPlan, Disposition,
+    DuplicateFile, Ground, GroundTopic, InspectionState, LotDecision, LotRecord, LotSource, PlanKind,
+    PlanRow, PlanSummary, RateSummary, RejectedFile, RigUse, Severity, ShiftRecord, SpecProblem,
+    SupersededTest, SwitchingCount, TestRecord, TestStatus, UnknownLabel, UnlistedLot, VariablesDecision,
 };
 pub use rig::{validate_rigs, Availability, ReferenceSpring, Rig, RigFieldError, RigList, ShiftClock};
 pub use spec::{CharacteristicClass, Finding, Limits, PartSpec, Tolerance, Verdict};

@@ -136,7 +136,7 @@ fn evaluate_one(
             (Some(judgement.verdict), judgement.findings)
         }
         // A plant that has specs but none for this part: say so instead of passing it.
-        (None, SpecSource::ByPart(_)) => (
+        (None, SpecSource::ByPart(library)) => (
             Some(Verdict::Invalid),
             vec![Finding {
                 characteristic: "spec".into(),
@@ -146,7 +146,12 @@ fn evaluate_one(
                 upper: None,
                 verdict: Verdict::Invalid,
                 message: match &meta.part {
-                    Some(part) => format!("no spec for part `{part}` in the plant's parts folder"),
+                    Some(part) => match library.problems_for(part).next() {
+                        Some(problem) => {
+                            format!("the spec for part `{part}` does not load: {}", problem.reason)
+                        }
+                        None => format!("no spec for part `{part}` in the plant's parts folder"),
+                    },
                     None => "the export names no part number, so no spec applies".into(),
                 },
             }],

@@ -11,15 +11,23 @@
 //! embed, so the layers that compute results never have to know how they are shown.
 //!
 //! Main types: [`Renderer`], [`LotReport`], [`ShiftSummary`], [`TestsCsv`],
-//! [`SvgMarkup`], [`ReportError`]; chart functions [`rate_histogram_svg`],
-//! [`curves_svg`], [`oc_curve_svg`].
+//! [`DataSheet`], [`SvgMarkup`], [`ReportError`]; chart functions [`strip_chart_svg`],
+//! [`curves_svg`], [`oc_curve_svg`]; [`format_metric`] prints a value at its metric's precision.
 
 pub mod charts;
 pub mod context;
+pub mod format;
 pub mod render;
 
-pub use charts::{curves_svg, oc_curve_svg, rate_histogram_svg, CurveLine, SvgMarkup, ToleranceWindow};
-pub use context::{default_cautions, Charts, LotReport, ShiftSummary, TestsCsv};
+pub use charts::{
+    curves_svg, no_data_svg, oc_curve_svg, strip_chart_svg, CurveChart, CurveLine, FreeAngleLimits, OcChart,
+    StripChart, StripPoint, SvgMarkup, ToleranceWindow,
+};
+pub use context::{
+    default_cautions, Charts, DataCell, DataColumn, DataRow, DataSheet, LotReport, ShiftSummary, TestsCsv,
+    ValuesChart,
+};
+pub use format::{format_metric, MetricKind};
 pub use render::{csv_field, Renderer, TemplateSource};
 
 use std::path::PathBuf;

@@ -13,9 +13,9 @@
 //!
 //! Main types: [`TorqueUnit`], [`AngleUnit`], [`CurveData`], [`TestMetadata`],
 //! [`PartSpec`], [`Verdict`], [`Finding`], [`Manifest`], [`DocumentError`], [`Rig`],
-//! [`LotList`], [`PlantTime`], and the records [`TestRecord`], [`LotRecord`],
-//! [`LotDecision`], [`ShiftRecord`] with the enums [`Disposition`], [`Severity`] and
-//! [`InspectionState`].
+//! [`LotList`], [`PlantTime`], [`PlantOffset`], and the records [`TestRecord`], [`LotRecord`]
+//! (with its [`PlanRow`]s and [`RigUse`]s), [`LotDecision`], [`ShiftRecord`], [`Approval`]
+//! with the enums [`Disposition`], [`Severity`] and [`InspectionState`].
 
 pub mod capability;
 pub mod curve;

@@ -10,7 +10,8 @@
 //! Not for: computations (layer-1 crates), rendering (report) or printing (cli).
 //!
 //! Main types: [`OpenPlant`], [`OpenOptions`], [`PluginCatalog`], [`Plant`],
-//! [`SpecLibrary`], [`ShiftSink`], [`SinkSet`], [`SwitchingRecord`].
+//! [`SpecLibrary`] (specs that load, and the problems of those that do not),
+//! [`ShiftSink`], [`SinkSet`], [`SwitchingRecord`] (keyed by lot).
 
 pub mod evaluate;
 pub mod open;

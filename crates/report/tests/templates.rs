@@ -180,7 +180,8 @@ fn lot(disposition: Disposition) -> LotReport {
         decision: Some(decision),
         statistics,
     };
-    let mut flagged = test(EVIL, "rig-b/0412 & co.txt", Verdict::Fail, "operator note: <b>bent leg</b> | check");
+    let mut flagged =
+        test(EVIL, "rig-b/0412 & co.txt", Verdict::Fail, "operator note: <b>bent leg</b> | check");
     // Two failing characteristics on one part: still one flagged part.
     flagged.findings.push(Finding { characteristic: "torque@45".into(), ..flagged.findings[0].clone() });
     let tests = vec![flagged, test("SN-2", "rig-b/0413.txt", Verdict::Pass, "inside")];

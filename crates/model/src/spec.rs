@@ -784,6 +784,7 @@ sampling:
         let text = SPEC.replace("tolerance: \"±8%\"", "tolerance: 0.25");
         let spec = PartSpec::from_yaml("ts100.yaml", &text).unwrap();
         let limits = spec.characteristics.rate_nmm_per_deg.unwrap().limits();
+        // Common practice, no published source: an absolute tolerance t gives nominal ± t.
         assert_eq!((limits.lower, limits.upper), (Some(3.75), Some(4.25)));
     }
 
@@ -800,6 +801,7 @@ sampling:
             .rate_nmm_per_deg
             .unwrap()
             .limits();
+        // Common practice, no published source: nominal 4.0 ± 0.3 N·mm/°.
         assert!((limits.lower.unwrap() - 3.7).abs() < 1e-12 && (limits.upper.unwrap() - 4.3).abs() < 1e-12);
     }
 

@@ -641,6 +641,7 @@ mod tests {
         assert_eq!(r.entries().len(), 2);
         assert!(r.entries().iter().all(|e| e.shift == "copy-of-late"));
         let now = r.standing_now("P", &rules(), &STEADY);
+        // Common practice, no published source: two lots, one not accepted, each counted once.
         assert_eq!((now.state.lots_on_severity, now.state.rejected_on_severity), (2, 1));
     }
 

@@ -313,6 +313,7 @@ mod tests {
         assert_eq!(sheet.rows[0].serial.as_deref(), Some("S-1"), "start-time order, not input order");
         assert_eq!(sheet.rows[0].cells[0], DataCell { value: None, verdict: Some(Verdict::Invalid) });
         assert_eq!(sheet.rows[0].cells[1], DataCell { value: None, verdict: None });
+        // Common practice, no published source: rates to 4 decimals, torques to 2.
         assert_eq!(sheet.rows[1].cells[0].value.as_deref(), Some("1.5123"));
         assert_eq!(sheet.rows[1].cells[1].value.as_deref(), Some("195.31"));
         assert_eq!(sheet.rows[1].status, "superseded");

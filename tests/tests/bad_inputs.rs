@@ -115,7 +115,7 @@ fn an_empty_cell_inside_the_data() {
 
 #[test]
 fn a_missing_torque_column() {
-    let text = "KORVEL TM-40\r\nPrüfling=1\r\n*DATA*\r\nt [ms]\tWinkel [°]\tKraft [N]\r\n0\t0\t0\r\n";
+    let text = "KORVEL DEMO-BENCH\r\nPrüfling=1\r\n*DATA*\r\nt [ms]\tWinkel [°]\tKraft [N]\r\n0\t0\t0\r\n";
     let reason = rejected_beside_a_good_file("a.txt", &windows_1252(text));
     assert!(reason.starts_with("line 4, column `Moment`"), "{reason}");
     // It lists what it found, decoded from Windows-1252.
@@ -124,7 +124,7 @@ fn a_missing_torque_column() {
 
 #[test]
 fn an_unknown_unit() {
-    let text = "KORVEL TM-40\r\n*DATA*\r\nt [ms]\tWinkel [°]\tMoment [kp·dm]\r\n0\t0\t0\r\n";
+    let text = "KORVEL DEMO-BENCH\r\n*DATA*\r\nt [ms]\tWinkel [°]\tMoment [kp·dm]\r\n0\t0\t0\r\n";
     let reason = rejected_beside_a_good_file("a.txt", &windows_1252(text));
     assert!(reason.starts_with("line 3"), "{reason}");
     assert_has(&reason, &["unknown", "unit", "`kp·dm`", "`korvel-tab`"]);
@@ -132,7 +132,7 @@ fn an_unknown_unit() {
 
 #[test]
 fn a_missing_unit_line_in_a_layout_that_needs_one() {
-    let text = "! PELLAM RT-9\n! SERIAL : 5\n  0.0  0.0  0.0  1\n  0.1  0.01  2.0  1\n";
+    let text = "! PELLAM DEMO-FIXED\n! SERIAL : 5\n  0.0  0.0  0.0  1\n  0.1  0.01  2.0  1\n";
     let reason = rejected_beside_a_good_file("p.dat", text.as_bytes());
     assert_has(&reason, &["TORQUE UNIT", "missing", "`pellam-fixed`"]);
 }
@@ -140,7 +140,7 @@ fn a_missing_unit_line_in_a_layout_that_needs_one() {
 #[test]
 fn a_decimal_comma_error_names_the_separator() {
     let text =
-        "OSTREL TQ\n\"Serial No.\";\"7\"\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;+\n1,0;12,5x;+\n";
+        "OSTREL DEMO-SEMI\n\"Serial No.\";\"7\"\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;+\n1,0;12,5x;+\n";
     let reason = rejected_beside_a_good_file("b.csv", text.as_bytes());
     // DESIGN.md's example of an error a person can act on.
     assert_eq!(
@@ -151,7 +151,7 @@ fn a_decimal_comma_error_names_the_separator() {
 
 #[test]
 fn a_bad_stroke_label() {
-    let text = "OSTREL TQ\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;up\n";
+    let text = "OSTREL DEMO-SEMI\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;up\n";
     let reason = rejected_beside_a_good_file("b.csv", text.as_bytes());
     assert!(reason.starts_with("line 4, column `Dir`"), "{reason}");
     assert_has(&reason, &["`up`", "`+`", "`-`"]);
@@ -220,7 +220,7 @@ fn two_plugins_claiming_a_file_are_both_named_and_rig_format_settles_it() {
     let native = batch.write_good("native.csv", "N-1", 6);
     let korvel = batch.write(
         "k.txt",
-        &windows_1252("KORVEL TM-40\r\nPrüfling=K-1\r\n*DATA*\r\nt [ms]\tWinkel [°]\tMoment [N·mm]\r\n0\t0\t0\r\n1\t1\t-4\r\n"),
+        &windows_1252("KORVEL DEMO-BENCH\r\nPrüfling=K-1\r\n*DATA*\r\nt [ms]\tWinkel [°]\tMoment [N·mm]\r\n0\t0\t0\r\n1\t1\t-4\r\n"),
     );
     let (code, rows) =
         ingest_json(&[batch.path().as_os_str(), "--plugins".as_ref(), plugins.path().as_os_str()]);

@@ -93,7 +93,10 @@ fn a_copied_binary_runs_the_demo_shift_away_from_the_source_tree() {
     assert!(html.starts_with("<!DOCTYPE html>") && html.contains("L2612-031"));
     for lot in away["lots"].as_array().unwrap() {
         let report = std::fs::read_to_string(out.join(lot["report_html"].as_str().unwrap())).unwrap();
-        assert_eq!(report.matches("<svg ").count(), 3, "{}", lot["lot"]);
+        // Charts drawn by the built-in code: a strip chart per characteristic, curves, OC
+        // (a lot nothing was tested of has only the OC chart of its plan).
+        let least = if lot["tested"] == 0 { 1 } else { 3 };
+        assert!(report.matches("<svg ").count() >= least, "{}", lot["lot"]);
     }
     // And `plugins` lists the built-ins from there too.
     let listed = std::process::Command::new(&binary)

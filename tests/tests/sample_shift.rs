@@ -35,9 +35,11 @@ fn every_file_of_the_shift_is_accounted_for_exactly_once() {
     let (code, rows) = ingest_shift();
     let code = *code;
     assert_eq!(code, 3, "some files are rejected, so the exit status is 3");
-    let on_disk = files_under(&sample_shift_dir());
+    // The shift's lot list is not an export: it is skipped by name (see below).
+    let on_disk: Vec<PathBuf> =
+        files_under(&sample_shift_dir()).into_iter().filter(|p| !p.ends_with("lots.yaml")).collect();
     assert!(on_disk.len() > 100, "the demo shift has {} files", on_disk.len());
-    assert_eq!(rows.len(), on_disk.len(), "one row per file");
+    assert_eq!(rows.len(), on_disk.len(), "one row per export");
     let mut seen: BTreeMap<PathBuf, usize> = BTreeMap::new();
     for row in rows {
         *seen.entry(PathBuf::from(row["file"].as_str().expect("file is a string"))).or_default() += 1;
@@ -50,8 +52,8 @@ fn every_file_of_the_shift_is_accounted_for_exactly_once() {
     let accepted = rows.iter().filter(|r| r["status"] == "accepted").count();
     let rejected = rows.iter().filter(|r| r["status"] == "rejected").count();
     assert_eq!(accepted + rejected, rows.len(), "every status is accepted or rejected");
-    // Planted: one non-numeric export, one truncated export, and lots.yaml.
-    assert_eq!(rejected, 3, "{:#?}", rows.iter().filter(|r| r["status"] == "rejected").collect::<Vec<_>>());
+    // Planted: one non-numeric export and one truncated export.
+    assert_eq!(rejected, 2, "{:#?}", rows.iter().filter(|r| r["status"] == "rejected").collect::<Vec<_>>());
     for row in rows.iter().filter(|r| r["status"] == "accepted") {
         assert_eq!(reason(row), "", "accepted rows carry no reason: {row}");
         assert!(row["points"].as_u64().unwrap_or(0) > 100, "an accepted export has its curve: {row}");
@@ -90,13 +92,24 @@ fn the_truncated_export_is_rejected_at_its_last_line() {
 }
 
 #[test]
-fn the_lot_list_is_rejected_as_unrecognised() {
+fn the_lot_list_is_skipped_by_name_and_the_skip_is_said() {
     let (_, rows) = ingest_shift();
-    let row = row_for(rows, &sample_shift_dir().join("lots.yaml"));
-    assert_eq!(row["status"], "rejected");
-    assert!(row["rig_format"].is_null(), "no format claimed it: {row}");
-    let reason = reason(row).to_lowercase();
-    assert!(reason.contains("recognis"), "{reason}");
+    let lot_list = sample_shift_dir().join("lots.yaml");
+    assert!(!rows.iter().any(|r| r["file"].as_str().map(Path::new) == Some(lot_list.as_path())));
+    let output = twistlot_tests::twistlot()
+        .args(["ingest", sample_shift_dir().to_str().unwrap(), "--format", "json"])
+        .args(["--plant", twistlot_tests::workspace_root().join("sample_lots/plant.yaml").to_str().unwrap()])
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(
+        stderr.contains(&format!("skipped: {} (the shift's lot list, not an export)", lot_list.display())),
+        "{stderr}"
+    );
+    // Named on its own, the file is read like any other, and is no export.
+    let (code, rows) = ingest_json(&[lot_list.as_os_str()]);
+    assert_eq!(code, 3);
+    assert!(reason(&rows[0]).to_lowercase().contains("recognis"), "{}", rows[0]);
 }
 
 #[test]

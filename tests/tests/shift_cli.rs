@@ -171,17 +171,150 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
         "re-running a shift must replace its own entries, not add to them"
     );
 
-    // The lot report is one self-contained page with three inline charts and the cautions.
-    let html =
-        std::fs::read_to_string(out.path().join(lot(&summary, "L2612-041")["report_html"].as_str().unwrap()))
-            .unwrap();
-    assert_eq!(html.matches("<svg").count(), 3, "three charts");
+    // Every lot lists every class's plan, the deciding one marked; L2612-040 was decided
+    // by its major class (Ac 2 Re 3), not by the critical plan with the same sample size.
+    for l in lots {
+        let plans = l["plans"].as_array().unwrap();
+        assert!(!plans.is_empty(), "{}", l["lot"]);
+        for plan in plans {
+            for key in [
+                "severity",
+                "lot_size_letter",
+                "code_letter",
+                "sample_size",
+                "accept",
+                "reject",
+                "tested",
+                "defectives",
+                "outcome",
+                "deciding",
+            ] {
+                assert!(plan.get(key).is_some(), "plan field {key} missing in {plan}");
+            }
+        }
+        assert_eq!(
+            plans.iter().filter(|p| p["deciding"] == true).count(),
+            1,
+            "one deciding plan in {}",
+            l["lot"]
+        );
+        assert!(l["decided_by"].as_str().is_some_and(|g| l["grounds"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|x| x == g)));
+        assert!(l["spec_revision"].as_str().is_some_and(|r| !r.is_empty()), "{}", l["lot"]);
+        assert!(l["spec_file"]
+            .as_str()
+            .is_some_and(|f| f.ends_with(&format!("{}.yaml", l["part"].as_str().unwrap()))));
+    }
+    let deciding = |id: &str| {
+        lot(&summary, id)["plans"].as_array().unwrap().iter().find(|p| p["deciding"] == true).unwrap().clone()
+    };
+    let rejected_040 = deciding("L2612-040");
+    // From memory: MIL-STD-105E Table I lot 281–500 level II: H (n 50); Table II-A, H at AQL 1.5: Ac 2 Re 3.
+    assert_eq!(
+        (rejected_040["class"].as_str(), rejected_040["accept"].as_u64(), rejected_040["reject"].as_u64()),
+        (Some("major"), Some(2), Some(3))
+    );
+    assert_eq!(rejected_040["defectives"], 3);
+    // L2612-041 (120 parts, level II) has the lot-size letter F (From memory: MIL-STD-105E
+    // Table I, lot 91–150, level II: F); its major plan on tightened is the one the scheme's
+    // table gives after its arrows, the same plan `twistlot sampling` looks up for the lot.
+    let major_041 = lot(&summary, "L2612-041")["plans"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| p["class"] == "major")
+        .unwrap()
+        .clone();
+    assert_eq!(major_041["lot_size_letter"], "F");
+    let looked_up = twistlot()
+        .args([
+            "sampling",
+            "--lot-size",
+            "120",
+            "--aql",
+            "1.5",
+            "--severity",
+            "tightened",
+            "--format",
+            "json",
+        ])
+        .output()
+        .unwrap();
+    let looked_up: Value = serde_json::from_slice(&looked_up.stdout).unwrap();
+    assert_eq!(major_041["code_letter"], looked_up["code_letter"]);
+    assert_eq!(major_041["sample_size"], looked_up["sample_size"]);
+    assert_ne!(major_041["code_letter"], "F", "an arrow led away from the lot size's letter");
+    // A zero-acceptance plan under reduced inspection keeps the normal sample and says so
+    // (the project's zero-acceptance rule, `sampling::zero_acceptance_plan`).
+    let critical_031 = lot(&summary, "L2612-031")["plans"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| p["class"] == "critical")
+        .unwrap()
+        .clone();
+    assert_eq!(critical_031["severity"], "normal");
+
+    // Each unreadable file belongs to its own lot's report only (its metadata named the lot).
+    let own = |id: &str| -> Vec<String> {
+        lot(&summary, id)["rejected_files"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| r["file"].as_str().unwrap().to_string())
+            .collect()
+    };
+    assert!(own("L2612-041")[0].ends_with("rig-c/L2612-041-018.dat"), "{:?}", own("L2612-041"));
+    assert!(own("L2612-051")[0].ends_with("rig-b/L2612-051-027.csv"));
+    assert!(own("L2612-040").is_empty() && own("L2612-031").is_empty());
+    let report = |id: &str| {
+        std::fs::read_to_string(out.path().join(lot(&summary, id)["report_html"].as_str().unwrap())).unwrap()
+    };
+    let html_040 = report("L2612-040");
+    assert!(
+        !html_040.contains("L2612-041-018.dat") && !html_040.contains("L2612-051-027.csv"),
+        "another lot's file"
+    );
+    assert!(
+        report("L2612-041").contains("L2612-041-018.dat") && !report("L2612-041").contains("L2612-051-027")
+    );
+    let shift_html = std::fs::read_to_string(out.path().join("shift_summary.html")).unwrap();
+    assert!(shift_html.contains("L2612-041-018.dat") && shift_html.contains("L2612-051-027.csv"));
+
+    // Calibration due dates come from the plant config; RIG-D has none recorded.
+    let rigs_of = |id: &str| lot(&summary, id)["rigs"].as_array().unwrap().clone();
+    assert_eq!(rigs_of("L2612-040")[0]["calibration_due"], "2026-12-20T00:00:00");
+    assert_eq!(rigs_of("L2612-040")[0]["lapsed"], false);
+    assert!(rigs_of("L2612-050")[0]["calibration_due"].is_null());
+    assert!(report("L2612-050").contains("not recorded"));
+    assert!(html_040.contains("2026-12-20T00:00:00"));
+
+    // The lot report is one self-contained page: a strip chart per toleranced
+    // characteristic (TS-0815: rate, free angle, torque at 60° and 100°), the curves and
+    // the OC chart, a data sheet of every tested part, the approval block and the cautions.
+    let html = report("L2612-041");
+    assert_eq!(html.matches("<svg").count(), 4 + 2, "four strips, curves, OC");
     assert!(!html.contains("<link") && !html.contains("<script src"), "self-contained");
     assert!(html.contains("L2612-041") && html.contains("TS-0815"));
+    assert!(html.contains("Data sheet: every tested part (31)"));
+    assert!(html.contains("Tomasz Whitcombe") && html.contains("RIG-C"));
+    assert!(html.contains("<section class=\"approval\""));
+    assert_eq!(
+        html.matches("<td class=\"line\"></td>").count(),
+        9,
+        "the demo plant names nobody: blank lines"
+    );
     assert!(html.contains("stores energy"), "the cautions are printed");
+    assert!(html.contains("all 31 curves"));
+    // Plant-local time to the second, with the plant's offset, no fraction of a second.
+    let stamp = summary_stamp(&html);
+    assert!(stamp.ends_with(" +01:00") && stamp.len() == "2026-12-02 06:00:00 +01:00".len(), "{stamp}");
     assert!(out.path().join("shift_summary.html").is_file());
 
-    // tests.csv has one row per evaluated test; the shipped sink appended one line per lot.
+    // tests.csv has one row per evaluated test, a column per test angle, and no float noise.
     let csv = std::fs::read_to_string(out.path().join("tests.csv")).unwrap();
     assert_eq!(csv.lines().count() as u64, 1 + accepted);
     let rows = twistlot_tests::parse_csv(&csv).unwrap();
@@ -191,12 +324,44 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
         4,
         "one reference check per rig"
     );
+    let header = &rows[0];
+    for column in [
+        "started",
+        "spec_revision",
+        "rate_r2",
+        "linearity_pct",
+        "torque_nmm_at_20",
+        "torque_nmm_at_30",
+        "torque_nmm_at_50",
+        "torque_nmm_at_60",
+        "torque_nmm_at_100",
+        "hysteresis_pct_at_60",
+    ] {
+        assert!(header.iter().any(|h| h == column), "no column {column} in {header:?}");
+    }
+    for row in &rows[1..] {
+        assert_eq!(row.len(), header.len());
+        for field in row {
+            if let Some((_, decimals)) = field.split_once('.') {
+                if decimals.chars().all(|c| c.is_ascii_digit()) {
+                    assert!(decimals.len() <= 6, "float noise in {field}");
+                }
+            }
+        }
+    }
+    // The shipped sink keeps one line per lot.
     let sink = std::fs::read_to_string(out.path().join("lots.jsonl")).unwrap();
     assert_eq!(sink.lines().count(), 8);
     let first: Value = serde_json::from_str(sink.lines().next().unwrap()).unwrap();
     assert_eq!(first["lot"]["lot"], "L2612-031");
     assert_eq!(first["tests"].as_array().unwrap().len(), 50);
     assert!(summary["sink_failures"].as_array().unwrap().is_empty());
+}
+
+/// The "made" stamp in a report's subtitle.
+fn summary_stamp(html: &str) -> String {
+    let at = html.find(" · made ").expect("a made stamp") + " · made ".len();
+    html[at..].split('<').next().unwrap().to_string()
 }
 
 fn walk(dir: &Path) -> Vec<std::path::PathBuf> {
@@ -252,7 +417,7 @@ fn text_from_exports_is_escaped_in_the_html() {
     let html =
         std::fs::read_to_string(out.join(lot(&summary, "L-X")["report_html"].as_str().unwrap())).unwrap();
     assert!(!html.contains("<script>alert(1)</script>"), "a serial became live markup");
-    assert!(html.contains("&lt;script&gt;alert(1)&lt;/script&gt;"), "the serial is shown escaped");
+    assert!(html.contains("&lt;script&gt;alert(1)&lt;&#x2f;script&gt;"), "the serial is shown escaped");
 }
 
 #[test]

@@ -13,9 +13,10 @@ use std::process::ExitCode;
 /// Exit status when the command ran but some input files were rejected.
 pub const EXIT_SOME_REJECTED: u8 = 3;
 
-const EXIT_HELP: &str = "Exit status: 0 when everything was read; 3 when the command ran but some input \
-files (or plugin manifests) were rejected, each listed with its reason; 1 when the command could not run; \
-2 for bad arguments.";
+const EXIT_HELP: &str = "Exit status: 0 when everything was read; 3 when the command ran but some inputs \
+(export files, part specs, plugin manifests, paths among several that do not exist) were rejected, each listed \
+with its reason; 1 when the command could not run (no plant config, no path named exists, a shift folder \
+without a lot list or without exports, a broken switching record); 2 for bad arguments.";
 
 const PLAN_EXIT_HELP: &str = "Exit status: 0 when every listed lot is planned; 3 when the plan was made but \
 some lots are left out (each listed with its reason); 1 when no plan could be made; 2 for bad arguments.";

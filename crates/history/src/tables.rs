@@ -8,8 +8,8 @@ use serde::de::DeserializeOwned;
 use std::collections::BTreeMap;
 use twistlot_model::record::{
     CharacteristicStats, CurveMetrics, Disposition, DuplicateFile, InspectionState, LotDecision, LotRecord,
-    PlanSummary, RateSummary, Severity, SupersededTest, SwingMetrics, SwitchingCount, TestRecord, TestStatus,
-    TheoryRate,
+    PlanRow, PlanSummary, RateSummary, RejectedFile, RigUse, Severity, SupersededTest, SwingMetrics,
+    SwitchingCount, TestRecord, TestStatus, TheoryRate,
 };
 use twistlot_model::spec::{Finding, Verdict};
 
@@ -183,6 +183,12 @@ pub fn lot_columns<'a>() -> Vec<ColumnDef<LotRow<'a>>> {
         ColumnDef { name: "report_md", kind: Kind::Text, unit: "", doc: "the lot's Markdown report, relative to the shift's output folder", get: |r: &R| text(Some(&r.record.report_md)) },
         ColumnDef { name: "duplicates", kind: Kind::Json, unit: "", doc: "files of the lot repeating another file's bytes: array of `{file, same_as, lot}`", get: |r: &R| json(&r.record.duplicates) },
         ColumnDef { name: "superseded", kind: Kind::Json, unit: "", doc: "earlier tests of serials tested again: array of `{serial, file, started, by}`", get: |r: &R| json(&r.record.superseded) },
+        ColumnDef { name: "decided_by", kind: Kind::Text, unit: "", doc: "the ground that decided the disposition, in words", get: |r: &R| text(r.record.decided_by.as_deref()) },
+        ColumnDef { name: "plans", kind: Kind::Json, unit: "", doc: "every plan applied to the lot (attribute classes and the variables plan), the deciding one marked", get: |r: &R| json(&r.record.plans) },
+        ColumnDef { name: "spec_file", kind: Kind::Text, unit: "", doc: "the spec file the lot was judged against", get: |r: &R| text(r.record.spec_file.as_deref()) },
+        ColumnDef { name: "spec_revision", kind: Kind::Text, unit: "", doc: "that spec's drawing revision", get: |r: &R| text(r.record.spec_revision.as_deref()) },
+        ColumnDef { name: "rejected_files", kind: Kind::Json, unit: "", doc: "the lot's own files that could not be read, with reasons", get: |r: &R| json(&r.record.rejected_files) },
+        ColumnDef { name: "rigs", kind: Kind::Json, unit: "", doc: "the rigs the lot was tested on, with their calibration due dates", get: |r: &R| json(&r.record.rigs) },
         ColumnDef { name: "statistics", kind: Kind::Json, unit: "", doc: "the lot's statistics per toleranced characteristic (limits, mean, s, capability indices with their bounds and the reasons any are absent)", get: |r: &R| json(&r.record.statistics) },
         ColumnDef { name: "tests_from", kind: Kind::Time, unit: "plant clock", doc: "earliest readable start time of the lot's counted tests in the shift", get: |r: &R| t(r.tests_from) },
         ColumnDef { name: "tests_until", kind: Kind::Time, unit: "plant clock", doc: "latest readable start time of the lot's counted tests in the shift", get: |r: &R| t(r.tests_until) },
@@ -824,6 +830,12 @@ pub fn read_lots(cells: &Cells) -> Result<Vec<StoredLot>, HistoryError> {
     let duplicates = cells.json::<Vec<DuplicateFile>>("duplicates")?;
     let superseded = cells.json::<Vec<SupersededTest>>("superseded")?;
     let statistics = cells.json::<Vec<CharacteristicStats>>("statistics")?;
+    let decided_by = cells.text("decided_by")?;
+    let plans = cells.json::<Vec<PlanRow>>("plans")?;
+    let spec_file = cells.text("spec_file")?;
+    let spec_revision = cells.text("spec_revision")?;
+    let rejected_files = cells.json::<Vec<RejectedFile>>("rejected_files")?;
+    let rigs = cells.json::<Vec<RigUse>>("rigs")?;
     let tests_from = cells.time("tests_from")?;
     let tests_until = cells.time("tests_until")?;
     let decided_at = cells.time("decided_at")?;
@@ -887,6 +899,12 @@ pub fn read_lots(cells: &Cells) -> Result<Vec<StoredLot>, HistoryError> {
             superseded: superseded[i].clone().unwrap_or_default(),
             decision: decision[i].clone(),
             statistics: statistics[i].clone().unwrap_or_default(),
+            decided_by: decided_by[i].clone(),
+            plans: plans[i].clone().unwrap_or_default(),
+            spec_file: spec_file[i].clone(),
+            spec_revision: spec_revision[i].clone(),
+            rejected_files: rejected_files[i].clone().unwrap_or_default(),
+            rigs: rigs[i].clone().unwrap_or_default(),
         };
         out.push(StoredLot {
             shift: required(cells, "shift", i, shift[i].clone())?,

@@ -7,7 +7,7 @@
 use crate::error::{IngestError, RejectKind};
 use crate::number::{parse_decimal, NumberError};
 use std::collections::BTreeMap;
-use twistlot_model::plugin::{ColumnPick, Delimiter, Layout, UnitSource};
+use twistlot_model::plugin::{ColumnPick, Delimiter, Layout, MetadataRule, UnitSource};
 use twistlot_model::{AngleUnit, Stroke, TorqueUnit};
 
 /// What a layout yields before strokes are derived and a frame is built.
@@ -385,6 +385,49 @@ pub fn read_layout(file: &str, format: &str, layout: &Layout, text: &str) -> Res
     read_layout_with(file, format, layout, text, true)
 }
 
+/// One metadata line's (label, value), when `line` is one under `rule`.
+fn metadata_pair<'l>(rule: &MetadataRule, line: &'l str) -> Option<(&'l str, &'l str)> {
+    let body = match &rule.prefix {
+        Some(prefix) => line.trim_start().strip_prefix(prefix.as_str())?,
+        None => line,
+    };
+    let (label, value) = body.split_once(rule.separator.as_str())?;
+    let label = trim_cell(label);
+    (!label.is_empty()).then(|| (label, trim_cell(value)))
+}
+
+/// The lot named in the metadata lines before the data (the preamble): what a report
+/// needs to list a rejected file under its own lot. Only metadata lines are looked at,
+/// never a guess from the data.
+pub fn preamble_lot(layout: &Layout, text: &str) -> Option<String> {
+    let rule = layout.metadata.as_ref()?;
+    let lot_labels: Vec<&str> =
+        rule.keys.iter().filter(|(_, key)| key.as_str() == "lot").map(|(label, _)| label.as_str()).collect();
+    let is_lot = |label: &str| {
+        label.eq_ignore_ascii_case("lot") || lot_labels.iter().any(|l| l.eq_ignore_ascii_case(label))
+    };
+    let mut lines = Lines { text, pos: 0, number: 0 };
+    while let Some((line, _, _)) = lines.next_line() {
+        match &layout.data_marker {
+            Some(marker) if line.trim() == marker.as_str() => return None,
+            Some(_) => {}
+            None if line.trim().is_empty() => continue,
+            None => {
+                let prefixed = rule.prefix.as_deref().is_some_and(|p| line.trim_start().starts_with(p));
+                if !prefixed {
+                    return None;
+                }
+            }
+        }
+        if let Some((label, value)) = metadata_pair(rule, line) {
+            if is_lot(label) && !value.is_empty() {
+                return Some(value.to_string());
+            }
+        }
+    }
+    None
+}
+
 /// [`read_layout`], with the quick row reader switchable so tests can check that
 /// both paths read every file the same way.
 fn read_layout_with<'t>(
@@ -399,19 +442,8 @@ fn read_layout_with<'t>(
     let mut metadata: Vec<(String, String, usize)> = Vec::new();
     let rule = layout.metadata.as_ref();
     let read_meta = |line: &str, number: usize, metadata: &mut Vec<(String, String, usize)>| {
-        let Some(rule) = rule else { return };
-        let body = match &rule.prefix {
-            Some(prefix) => match line.trim_start().strip_prefix(prefix.as_str()) {
-                Some(body) => body,
-                None => return,
-            },
-            None => line,
-        };
-        if let Some((label, value)) = body.split_once(rule.separator.as_str()) {
-            let label = trim_cell(label);
-            if !label.is_empty() {
-                metadata.push((label.to_string(), trim_cell(value).to_string(), number));
-            }
+        if let Some((label, value)) = rule.and_then(|rule| metadata_pair(rule, line)) {
+            metadata.push((label.to_string(), value.to_string(), number));
         }
     };
 
@@ -725,6 +757,22 @@ mod tests {
         Ok(())
     }
 
+    #[test]
+    fn the_lot_of_a_rejected_file_comes_from_its_metadata_lines_only() {
+        let native = "# serial: S-1\n# lot: L-7\nangle_deg,torque_nmm\n0,0\n1,2x\n";
+        let err = read_layout("f.csv", "native", &layout("native.yaml"), native).unwrap_err();
+        assert_eq!(err.line, Some(5));
+        assert_eq!(preamble_lot(&layout("native.yaml"), native).as_deref(), Some("L-7"));
+        // A layout whose own label for the lot is mapped (`Batch` → lot), before its data marker.
+        let ostrel =
+            "OSTREL DEMO-SEMI\n\"Batch\";\"L-8\"\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;1,x;+\n";
+        assert!(read_layout("f.csv", "ostrel-semi", &layout("ostrel-semi.yaml"), ostrel).is_err());
+        assert_eq!(preamble_lot(&layout("ostrel-semi.yaml"), ostrel).as_deref(), Some("L-8"));
+        // A lot that appears only after the metadata ended is not taken.
+        let late = "# serial: S-1\nangle_deg,torque_nmm\n0,0\n# lot: L-9\n1,2x\n";
+        assert_eq!(preamble_lot(&layout("native.yaml"), late), None);
+    }
+
     /// Cells a rig might write, and some it should not.
     fn cell() -> impl Strategy<Value = String> {
         prop_oneof![
@@ -776,8 +824,8 @@ mod tests {
         fn aligned_comma_decimal_and_labelled_rows_read_the_same(
             rows in proptest::collection::vec((cell(), cell(), 0u32..4, any::<bool>()), 1..12),
         ) {
-            let mut pellam = String::from("! PELLAM RT\n! TORQUE UNIT: N·cm\n");
-            let mut ostrel = String::from("OSTREL\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n");
+            let mut pellam = String::from("! PELLAM DEMO-FIXED\n! TORQUE UNIT: N·cm\n");
+            let mut ostrel = String::from("OSTREL DEMO-SEMI\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n");
             for (i, (a, m, cycle, load)) in rows.iter().enumerate() {
                 pellam.push_str(&format!("{}  0.1  {a}  {m}  {cycle}\n", i + 1));
                 let dir = if *load { "+" } else { "-" };

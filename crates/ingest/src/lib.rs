@@ -31,4 +31,4 @@ pub use batch::{
 };
 pub use error::{FormatError, IngestError, RejectKind};
 pub use format::{FormatSet, Reader, RigFormat};
-pub use read::{curve_from_frame, read_bytes, read_path, read_with, Export};
+pub use read::{curve_from_frame, read_bytes, read_path, read_with, rejected_file_lot, Export};

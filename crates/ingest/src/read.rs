@@ -169,6 +169,18 @@ pub fn build_decay_frame(test_id: &str, time_s: Vec<f64>, angle_deg: Vec<f64>) -
     )
 }
 
+/// The lot a rejected file's metadata names, read again from the file with the rig
+/// format the rejection names: the reader does not keep it on the error, which stays
+/// small because every file's result passes through it. `None` when the file cannot be
+/// read again, the format is an exec converter, or the metadata names no lot.
+pub fn rejected_file_lot(path: &Path, formats: &FormatSet, rig_format: Option<&str>) -> Option<String> {
+    let format = formats.by_name(rig_format?)?;
+    let Reader::Layout(layout) = &format.reader else { return None };
+    let bytes = std::fs::read(path).ok()?;
+    let text = decode("", &bytes, layout.encoding).ok()?;
+    crate::layout::preamble_lot(layout, &text)
+}
+
 fn converter_output(mut err: IngestError, plugin: &str) -> IngestError {
     err.kind = RejectKind::Converter;
     err.message = format!("its output is not the native format: {}", err.message);

@@ -257,7 +257,7 @@ fn bad_inputs_each_get_their_own_reason() {
 fn a_missing_torque_column_is_named() {
     let (m, path) = manifest("korvel-tab.yaml");
     let formats = FormatSet::new(vec![RigFormat::from_manifest(m, Some(&path)).unwrap()]).unwrap();
-    let text = "KORVEL TM-40\r\nPrüfling=1\r\n*DATA*\r\nt [ms]\tWinkel [°]\tKraft [N]\r\n0\t0\t0\r\n";
+    let text = "KORVEL DEMO-BENCH\r\nPrüfling=1\r\n*DATA*\r\nt [ms]\tWinkel [°]\tKraft [N]\r\n0\t0\t0\r\n";
     let bytes = encoding_rs::WINDOWS_1252.encode(text).0;
     let err = read(&formats, "a.txt", &bytes).unwrap_err();
     assert_eq!(err.kind, RejectKind::MissingColumn);
@@ -270,7 +270,7 @@ fn a_missing_torque_column_is_named() {
 fn unknown_units_in_a_header_are_named() {
     let (m, path) = manifest("korvel-tab.yaml");
     let formats = FormatSet::new(vec![RigFormat::from_manifest(m, Some(&path)).unwrap()]).unwrap();
-    let text = "KORVEL TM-40\r\n*DATA*\r\nt [ms]\tWinkel [°]\tMoment [kp·dm]\r\n0\t0\t0\r\n";
+    let text = "KORVEL DEMO-BENCH\r\n*DATA*\r\nt [ms]\tWinkel [°]\tMoment [kp·dm]\r\n0\t0\t0\r\n";
     let bytes = encoding_rs::WINDOWS_1252.encode(text).0;
     let err = read(&formats, "a.txt", &bytes).unwrap_err();
     assert_eq!(err.kind, RejectKind::UnknownUnit);
@@ -283,7 +283,7 @@ fn decimal_comma_errors_name_the_separator() {
     let (m, path) = manifest("ostrel-semi.yaml");
     let formats = FormatSet::new(vec![RigFormat::from_manifest(m, Some(&path)).unwrap()]).unwrap();
     let text =
-        "OSTREL TQ\n\"Serial No.\";\"7\"\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;+\n1,0;12,5x;+\n";
+        "OSTREL DEMO-SEMI\n\"Serial No.\";\"7\"\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;+\n1,0;12,5x;+\n";
     let err = read(&formats, "b.csv", text.as_bytes()).unwrap_err();
     assert_eq!(err.kind, RejectKind::NotANumber);
     assert_eq!(err.line, Some(6));
@@ -298,7 +298,7 @@ fn decimal_comma_errors_name_the_separator() {
 fn a_bad_stroke_label_is_named() {
     let (m, path) = manifest("ostrel-semi.yaml");
     let formats = FormatSet::new(vec![RigFormat::from_manifest(m, Some(&path)).unwrap()]).unwrap();
-    let text = "OSTREL TQ\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;up\n";
+    let text = "OSTREL DEMO-SEMI\n[curve]\nAngle (deg);Torque (lbf·in);Dir\n0,0;0,0;up\n";
     let err = read(&formats, "b.csv", text.as_bytes()).unwrap_err();
     assert_eq!(err.kind, RejectKind::BadLabel);
     assert!(err.message.contains("`up`"), "{err}");

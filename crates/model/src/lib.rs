@@ -13,9 +13,10 @@
 //!
 //! Main types: [`TorqueUnit`], [`AngleUnit`], [`CurveData`], [`TestMetadata`],
 //! [`PartSpec`], [`Verdict`], [`Finding`], [`Manifest`], [`DocumentError`], [`Rig`], [`RecordKind`],
-//! [`LotList`], [`PlantTime`], and the records [`TestRecord`], [`LotRecord`],
-//! [`LotDecision`], [`ShiftRecord`] (with [`SwingMetrics`] and [`TheoryRate`] on a test) and the
-//! enums [`Disposition`], [`Severity`] and [`InspectionState`].
+//! [`LotList`], [`PlantTime`], [`PlantOffset`], and the records [`TestRecord`] (with
+//! [`SwingMetrics`] and [`TheoryRate`]), [`LotRecord`] (with its [`PlanRow`]s and
+//! [`RigUse`]s), [`LotDecision`], [`ShiftRecord`], [`Approval`] with the enums
+//! [`Disposition`], [`Severity`] and [`InspectionState`].
 
 pub mod capability;
 pub mod curve;
@@ -34,14 +35,15 @@ pub use capability::{Absent, AbsentReason, Capability, CapabilityMethod, FittedD
 pub use curve::{CurveData, DecayData, RecordKind, Stroke};
 pub use lot_list::{ListedLot, LotList, ShiftHours};
 pub use metadata::TestMetadata;
-pub use plant_time::{BadTime, ClockTime, PlantTime};
+pub use plant_time::{BadTime, ClockTime, PlantOffset, PlantTime};
 pub use plugin::{Manifest, PluginHeader, PluginKind};
 pub use record::{
-    AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, DecayShape, Disposition, DuplicateFile,
-    Ground, GroundTopic, InspectionState, LotDecision, LotRecord, PlanComparison, PlanSummary,
-    PlannedAgainstTested, RateSummary, ReferenceCheck, RejectedFile, RigVerification, Severity, ShiftRecord,
-    SupersededTest, SwingMetrics, SwitchingCount, TestRecord, TestStatus, TestedOnRefusedRig, TheoryRate,
-    UnknownLabel, VariablesDecision, VerificationStatus,
+    Approval, AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, DecayShape, DecidingPlan,
+    Disposition, DuplicateFile, Ground, GroundTopic, InspectionState, LotDecision, LotRecord, LotSource,
+    PlanComparison, PlanKind, PlanRow, PlanSummary, PlannedAgainstTested, RateSummary, ReferenceCheck,
+    RejectedFile, RigUse, RigVerification, Severity, ShiftRecord, SpecProblem, SupersededTest, SwingMetrics,
+    SwitchingCount, TestRecord, TestStatus, TestedOnRefusedRig, TheoryRate, UnknownLabel, UnlistedLot,
+    VariablesDecision, VerificationStatus,
 };
 pub use rig::{validate_rigs, Availability, ReferenceSpring, Rig, RigFieldError, RigList, ShiftClock};
 pub use spec::{CharacteristicClass, Finding, Limits, PartSpec, Tolerance, Verdict};

@@ -243,10 +243,112 @@ impl<'de> Deserialize<'de> for ClockTime {
     }
 }
 
+/// A plant's offset from UTC as its config states it (`utc_offset: "+01:00"`), for
+/// stamping outputs with the plant's wall-clock time to the second.
+///
+/// A fixed offset, not a time-zone rule: a plant whose clocks change for daylight saving
+/// changes the config at the changeover. Every stamp carries its offset, so a stamp is
+/// never ambiguous whichever offset was in force.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct PlantOffset {
+    minutes: i32,
+}
+
+const OFFSET_FORM: &str = "an offset from UTC (write +HH:MM or -HH:MM, e.g. +01:00, or UTC)";
+
+impl PlantOffset {
+    /// UTC itself.
+    pub const UTC: PlantOffset = PlantOffset { minutes: 0 };
+
+    /// Minutes east of UTC (negative west of it).
+    pub fn minutes(self) -> i32 {
+        self.minutes
+    }
+
+    /// The plant's wall-clock time at `unix_seconds` (seconds since 1970-01-01T00:00Z).
+    pub fn local(self, unix_seconds: i64) -> Option<PlantTime> {
+        let epoch = PlantTime(PrimitiveDateTime::new(
+            Date::from_calendar_date(1970, Month::January, 1).ok()?,
+            Time::MIDNIGHT,
+        ));
+        epoch.checked_add_seconds(unix_seconds.checked_add(i64::from(self.minutes) * 60)?)
+    }
+
+    /// `YYYY-MM-DD HH:MM:SS ±HH:MM` at `unix_seconds`: the plant's wall clock to the second.
+    pub fn stamp(self, unix_seconds: i64) -> String {
+        match self.local(unix_seconds) {
+            Some(local) => format!("{} {self}", local.to_string().replace('T', " ")),
+            None => format!("{unix_seconds} s after 1970-01-01T00:00Z"),
+        }
+    }
+}
+
+impl fmt::Display for PlantOffset {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let sign = if self.minutes < 0 { '-' } else { '+' };
+        let minutes = self.minutes.unsigned_abs();
+        write!(f, "{sign}{:02}:{:02}", minutes / 60, minutes % 60)
+    }
+}
+
+impl FromStr for PlantOffset {
+    type Err = BadTime;
+
+    fn from_str(text: &str) -> Result<Self, BadTime> {
+        let bad = || BadTime { text: text.to_string(), expected: OFFSET_FORM };
+        let trimmed = text.trim();
+        if trimmed.eq_ignore_ascii_case("utc") || trimmed == "Z" {
+            return Ok(PlantOffset::UTC);
+        }
+        let (sign, rest) = match trimmed.chars().next() {
+            Some('+') => (1, &trimmed[1..]),
+            Some('-') | Some('−') => (-1, trimmed.trim_start_matches(['-', '−'])),
+            _ => return Err(bad()),
+        };
+        let (hours, minutes) = rest.split_once(':').ok_or_else(bad)?;
+        let hours = digits(hours, 2).ok_or_else(bad)?;
+        let minutes = digits(minutes, 2).ok_or_else(bad)?;
+        // Offsets in use run from −12:00 to +14:00.
+        if minutes >= 60 || hours > 14 || (hours == 14 && minutes > 0) {
+            return Err(bad());
+        }
+        Ok(PlantOffset { minutes: sign * (hours * 60 + minutes) as i32 })
+    }
+}
+
+impl Serialize for PlantOffset {
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        serializer.collect_str(self)
+    }
+}
+
+impl<'de> Deserialize<'de> for PlantOffset {
+    fn deserialize<D: serde::Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        deserializer.deserialize_str(ParseVisitor::new(OFFSET_FORM))
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use proptest::prelude::*;
+
+    #[test]
+    fn offsets_parse_print_and_stamp_to_the_second() {
+        let offset = |t: &str| t.parse::<PlantOffset>().unwrap();
+        assert_eq!(offset("+01:00").minutes(), 60);
+        assert_eq!(offset("-05:30").to_string(), "-05:30");
+        assert_eq!(offset("UTC"), PlantOffset::UTC);
+        assert_eq!(PlantOffset::UTC.to_string(), "+00:00");
+        for bad in ["01:00", "+1:00", "+15:00", "+01:60", "CET", "", "+01"] {
+            let err = bad.parse::<PlantOffset>().unwrap_err();
+            assert!(err.to_string().contains("+HH:MM"), "{bad}: {err}");
+        }
+        // Source: POSIX time 946684800 is 2000-01-01T00:00:00Z (IEEE Std 1003.1, "Seconds Since the Epoch").
+        assert_eq!(offset("+01:00").stamp(946_684_800), "2000-01-01 01:00:00 +01:00");
+        assert_eq!(offset("-05:30").stamp(946_684_800 + 59), "1999-12-31 18:30:59 -05:30");
+        assert_eq!(PlantOffset::UTC.stamp(946_684_800), "2000-01-01 00:00:00 +00:00");
+    }
 
     fn at(text: &str) -> PlantTime {
         text.parse().unwrap()

@@ -152,6 +152,10 @@ impl fmt::Display for InspectionState {
 pub struct AttributePlan {
     /// Code letter of the row the plan was taken from (after following arrows).
     pub code_letter: String,
+    /// Code letter the lot size gives (the scheme's Table I), before any arrow; absent in
+    /// records written before it was kept.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub lot_size_letter: Option<String>,
     /// Units to inspect (the lot size when `hundred_percent`).
     pub sample_size: u64,
     /// Acceptance number Ac: accept with this many defectives or fewer.
@@ -544,6 +548,9 @@ pub struct VariablesDecision {
     pub characteristic: String,
     /// Designed sample size.
     pub sample_size: u64,
+    /// Measured values the lot's valid tests gave (the plan judges the first `sample_size`).
+    #[serde(default)]
+    pub values: u64,
     /// Acceptability constant, when the plan could be designed.
     pub k: Option<f64>,
     /// Sample mean of the values used.
@@ -625,6 +632,126 @@ impl LotDecision {
     pub fn note(&mut self, topic: GroundTopic, text: impl Into<String>) {
         self.grounds.push(Ground::note(topic, text));
     }
+
+    /// The plan whose ground decided the disposition; `None` when the lot was decided on
+    /// the evidence or its standing (no tests, a broken spec, acceptance discontinued…).
+    pub fn deciding_plan(&self) -> Option<DecidingPlan<'_>> {
+        match self.deciding_ground()?.topic {
+            GroundTopic::Class(class) => {
+                self.classes.iter().find(|c| c.class == class).map(DecidingPlan::Class)
+            }
+            GroundTopic::Variables => self.variables.as_ref().map(DecidingPlan::Variables),
+            GroundTopic::Switching | GroundTopic::Evidence => None,
+        }
+    }
+
+    /// Every plan of the lot, most serious class first and the variables plan last, each
+    /// with what the lot showed under it and whether it decided the disposition.
+    pub fn plan_rows(&self) -> Vec<PlanRow> {
+        let deciding = self.deciding_ground().map(|g| g.topic);
+        let mut rows: Vec<PlanRow> = self
+            .classes
+            .iter()
+            .map(|c| PlanRow {
+                kind: if c.aql_pct.is_some() { PlanKind::Attribute } else { PlanKind::ZeroAcceptance },
+                class: Some(c.class),
+                characteristic: None,
+                severity: c.plan.severity,
+                lot_size_letter: c.plan.lot_size_letter.clone(),
+                code_letter: Some(c.plan.code_letter.clone()),
+                sample_size: c.plan.sample_size,
+                accept: Some(c.plan.accept),
+                reject: Some(c.plan.reject),
+                k: None,
+                aql_pct: c.aql_pct,
+                hundred_percent: c.plan.hundred_percent,
+                tested: c.tested,
+                defectives: Some(c.defectives),
+                outcome: c.outcome,
+                deciding: deciding == Some(GroundTopic::Class(c.class)),
+            })
+            .collect();
+        if let Some(v) = &self.variables {
+            rows.push(PlanRow {
+                kind: PlanKind::Variables,
+                class: None,
+                characteristic: Some(v.characteristic.clone()),
+                severity: self.severity.unwrap_or(Severity::Normal),
+                lot_size_letter: None,
+                code_letter: None,
+                sample_size: v.sample_size,
+                accept: None,
+                reject: None,
+                k: v.k,
+                aql_pct: None,
+                hundred_percent: false,
+                tested: v.values.min(v.sample_size),
+                defectives: None,
+                outcome: v.outcome,
+                deciding: deciding == Some(GroundTopic::Variables),
+            });
+        }
+        rows
+    }
+}
+
+/// The plan that decided a lot.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum DecidingPlan<'a> {
+    /// A characteristic class's attribute (or zero-acceptance) plan.
+    Class(&'a ClassDecision),
+    /// The variables plan.
+    Variables(&'a VariablesDecision),
+}
+
+/// The kind of a [`PlanRow`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum PlanKind {
+    /// An attribute plan from the scheme's tables at an AQL.
+    Attribute,
+    /// The code letter's sample size, accepted only on zero defectives.
+    ZeroAcceptance,
+    /// A variables (k-method) plan.
+    Variables,
+}
+
+/// One plan applied to a lot, flat, as the reports and `summary.json` list it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlanRow {
+    /// Attribute, zero-acceptance or variables.
+    pub kind: PlanKind,
+    /// The characteristic class of an attribute or zero-acceptance plan.
+    pub class: Option<CharacteristicClass>,
+    /// The characteristic a variables plan judges.
+    pub characteristic: Option<String>,
+    /// Severity whose table the plan came from (a zero-acceptance plan under reduced
+    /// inspection keeps the normal sample, so it says normal).
+    pub severity: Severity,
+    /// Code letter the lot size gives, before any arrow.
+    pub lot_size_letter: Option<String>,
+    /// Code letter of the plan used, after following the table's arrows.
+    pub code_letter: Option<String>,
+    /// Sample size n.
+    pub sample_size: u64,
+    /// Acceptance number Ac.
+    pub accept: Option<u64>,
+    /// Rejection number Re.
+    pub reject: Option<u64>,
+    /// Acceptability constant k of a variables plan.
+    pub k: Option<f64>,
+    /// AQL of an attribute plan, percent.
+    pub aql_pct: Option<f64>,
+    /// Every unit of the lot is inspected.
+    pub hundred_percent: bool,
+    /// Valid tests (or measured values) counted under the plan.
+    pub tested: u64,
+    /// Defectives among them (attribute plans).
+    pub defectives: Option<u64>,
+    /// This plan's outcome.
+    pub outcome: Disposition,
+    /// True for the plan whose ground decided the lot's disposition.
+    pub deciding: bool,
 }
 
 /// The plan shown for a lot in `summary.json`.
@@ -705,6 +832,104 @@ pub struct RejectedFile {
     pub file: String,
     /// The reason, in words a person can act on.
     pub reason: String,
+    /// The lot the file belongs to, when that could be told without reading it whole.
+    #[serde(default)]
+    pub lot: Option<String>,
+    /// How the lot was told.
+    #[serde(default)]
+    pub lot_from: Option<LotSource>,
+}
+
+impl RejectedFile {
+    /// A rejected file whose lot is not known.
+    pub fn new(file: impl Into<String>, reason: impl Into<String>) -> RejectedFile {
+        RejectedFile { file: file.into(), reason: reason.into(), lot: None, lot_from: None }
+    }
+}
+
+/// How the lot of a file that could not be read was told.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum LotSource {
+    /// From the file's metadata lines, read before the problem.
+    Metadata,
+    /// From the file's name or folder, which holds a lot of the shift's lot list.
+    FileName,
+}
+
+/// A part spec file that did not load; lots of its part are held.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct SpecProblem {
+    /// The spec file.
+    pub file: String,
+    /// The part the file names, when that much could be read.
+    pub part: Option<String>,
+    /// What is wrong, with line and field.
+    pub reason: String,
+}
+
+/// Exports of a lot that is not on the shift's lot list: evaluated, not decided.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct UnlistedLot {
+    /// The lot the exports name (`None`: the exports name no lot).
+    pub lot: Option<String>,
+    /// Part numbers the exports name.
+    pub parts: Vec<String>,
+    /// Counted tests.
+    pub tested: u64,
+    /// Counted tests that failed.
+    pub failed: u64,
+    /// Counted tests that could not be judged.
+    pub invalid: u64,
+    /// The export files.
+    pub files: Vec<String>,
+}
+
+/// A rig that tested parts of a lot, with what the plant config records of its calibration.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct RigUse {
+    /// Rig name as the exports give it.
+    pub rig: String,
+    /// Tests of the lot run on it.
+    pub tests: u64,
+    /// Latest start time of those tests, as the rig wrote it.
+    pub last_test: Option<String>,
+    /// Calibration due date from the plant config; `None` when the config records none.
+    pub calibration_due: Option<String>,
+    /// True when a test of the lot started after the calibration due date.
+    pub lapsed: bool,
+    /// False when the plant config does not list the rig.
+    pub listed: bool,
+}
+
+/// Who signs a lot acceptance report. Names come only from the plant config or the
+/// command line; a missing one leaves a blank line to sign on.
+#[derive(Debug, Clone, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Approval {
+    /// Who ran or supervised the tests.
+    #[serde(default)]
+    pub tested_by: Option<String>,
+    /// Who reviewed the results.
+    #[serde(default)]
+    pub reviewed_by: Option<String>,
+    /// Who releases (or rejects) the lot.
+    #[serde(default)]
+    pub released_by: Option<String>,
+}
+
+impl Approval {
+    /// `self`, with each name `other` gives put in place of this one's.
+    pub fn overridden_by(&self, other: &Approval) -> Approval {
+        let pick = |a: &Option<String>, b: &Option<String>| {
+            b.clone().or_else(|| a.clone()).filter(|name| !name.trim().is_empty())
+        };
+        Approval {
+            tested_by: pick(&self.tested_by, &other.tested_by),
+            reviewed_by: pick(&self.reviewed_by, &other.reviewed_by),
+            released_by: pick(&self.released_by, &other.released_by),
+        }
+    }
 }
 
 /// A file whose bytes repeat an earlier file's, counted once.
@@ -756,6 +981,9 @@ pub struct LotRecord {
     pub rate: Option<RateSummary>,
     /// Grounds of the disposition, in words.
     pub grounds: Vec<String>,
+    /// The ground that decided the disposition, in words (one of `grounds`).
+    #[serde(default)]
+    pub decided_by: Option<String>,
     /// The HTML report, relative to the output folder.
     pub report_html: String,
     /// The Markdown report, relative to the output folder.
@@ -764,6 +992,21 @@ pub struct LotRecord {
     pub duplicates: Vec<DuplicateFile>,
     /// Earlier tests of serials tested again.
     pub superseded: Vec<SupersededTest>,
+    /// Every plan applied to the lot (each class's and the variables plan), the deciding one marked.
+    #[serde(default)]
+    pub plans: Vec<PlanRow>,
+    /// The spec file judged against.
+    #[serde(default)]
+    pub spec_file: Option<String>,
+    /// Its drawing revision.
+    #[serde(default)]
+    pub spec_revision: Option<String>,
+    /// Export files of this lot that could not be read.
+    #[serde(default)]
+    pub rejected_files: Vec<RejectedFile>,
+    /// Rigs that tested the lot, with their calibration due dates.
+    #[serde(default)]
+    pub rigs: Vec<RigUse>,
     /// The full decision, with structured grounds and every class's plan.
     #[serde(skip)]
     pub decision: Option<LotDecision>,
@@ -814,6 +1057,18 @@ pub struct ShiftRecord {
     pub cautions: Vec<String>,
     /// Files whose bytes repeat another file's, counted once.
     pub duplicates: Vec<DuplicateFile>,
+    /// Lots found in the exports but not on the lot list (evaluated, not decided).
+    #[serde(default)]
+    pub unlisted_lots: Vec<UnlistedLot>,
+    /// Part spec files that did not load.
+    #[serde(default)]
+    pub spec_problems: Vec<SpecProblem>,
+    /// Files of the shift folder that are not exports (the lot list), skipped by name.
+    #[serde(default)]
+    pub skipped_files: Vec<RejectedFile>,
+    /// Warnings that decided nothing (an export from a rig the plant config does not list…).
+    #[serde(default)]
+    pub warnings: Vec<String>,
     /// Each rig's reference-spring verification in the shift (empty when the plant
     /// config records no reference spring).
     #[serde(default)]
@@ -977,6 +1232,85 @@ mod tests {
         assert_eq!(start_seconds("29.02.2024 12:00"), Some(1_709_208_000.0));
     }
 
+    fn class(
+        class: CharacteristicClass,
+        n: u64,
+        ac: u64,
+        aql: Option<f64>,
+        d: u64,
+        outcome: Disposition,
+    ) -> ClassDecision {
+        ClassDecision {
+            class,
+            plan: AttributePlan {
+                code_letter: "J".into(),
+                lot_size_letter: Some("H".into()),
+                sample_size: n,
+                accept: ac,
+                reject: ac + 1,
+                severity: Severity::Normal,
+                hundred_percent: false,
+            },
+            aql_pct: aql,
+            tested: n,
+            defectives: d,
+            defectives_beyond_sample: 0,
+            invalid: 0,
+            outcome,
+        }
+    }
+
+    #[test]
+    fn plan_rows_mark_the_plan_whose_ground_decided() {
+        use CharacteristicClass::*;
+        let decision = LotDecision {
+            disposition: Disposition::Reject,
+            severity: Some(Severity::Normal),
+            grounds: vec![
+                Ground::leading(GroundTopic::Class(Critical), Disposition::Accept, "critical: accept"),
+                Ground::leading(GroundTopic::Class(Major), Disposition::Reject, "major: reject"),
+            ],
+            deciding: Some(1),
+            classes: vec![
+                class(Critical, 80, 0, None, 0, Disposition::Accept),
+                class(Major, 80, 2, Some(1.0), 3, Disposition::Reject),
+            ],
+            variables: None,
+            shown_class: Some(Critical),
+            switching: None,
+        };
+        let rows = decision.plan_rows();
+        assert_eq!(rows.len(), 2);
+        assert_eq!(rows.iter().filter(|r| r.deciding).count(), 1);
+        let major = rows.iter().find(|r| r.deciding).unwrap();
+        assert_eq!(
+            (major.class, major.accept, major.reject, major.defectives),
+            (Some(Major), Some(2), Some(3), Some(3))
+        );
+        assert_eq!(major.kind, PlanKind::Attribute);
+        assert_eq!((major.lot_size_letter.as_deref(), major.code_letter.as_deref()), (Some("H"), Some("J")));
+        assert_eq!(rows[0].kind, PlanKind::ZeroAcceptance);
+        match decision.deciding_plan() {
+            Some(DecidingPlan::Class(c)) => assert_eq!(c.class, Major),
+            other => panic!("{other:?}"),
+        }
+        // A lot held on the evidence has no deciding plan.
+        let held = LotDecision::hold(GroundTopic::Evidence, "no tests", None);
+        assert!(held.deciding_plan().is_none() && held.plan_rows().is_empty());
+    }
+
+    #[test]
+    fn approval_names_from_the_command_line_win_and_blanks_stay_blank() {
+        let config =
+            Approval { tested_by: Some("A".into()), reviewed_by: Some("B".into()), released_by: None };
+        let line =
+            Approval { reviewed_by: Some("C".into()), released_by: Some("  ".into()), ..Approval::default() };
+        let merged = config.overridden_by(&line);
+        assert_eq!(merged.tested_by.as_deref(), Some("A"));
+        assert_eq!(merged.reviewed_by.as_deref(), Some("C"));
+        assert_eq!(merged.released_by, None, "a blank name is no name");
+    }
+
     #[test]
     fn severity_label_shows_a_change_of_severity() {
         let mut lot = LotRecord {
@@ -997,10 +1331,16 @@ mod tests {
             next_severity: Some(InspectionState::Tightened),
             rate: None,
             grounds: Vec::new(),
+            decided_by: None,
             report_html: String::new(),
             report_md: String::new(),
             duplicates: Vec::new(),
             superseded: Vec::new(),
+            plans: Vec::new(),
+            spec_file: None,
+            spec_revision: None,
+            rejected_files: Vec::new(),
+            rigs: Vec::new(),
             decision: None,
             statistics: Vec::new(),
         };

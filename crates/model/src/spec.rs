@@ -102,8 +102,13 @@ pub struct Finding {
 
 /// A tolerance around a nominal value.
 ///
-/// Written in a spec as a number (`0.5`, symmetric absolute), a string (`"±8%"`,
-/// `"+5/-3"`, `"+4%/-2%"`, `"±0.5"`), or a map `{plus: 5, minus: 3, percent: false}`.
+/// Written in a spec as a YAML number (`0.5`: symmetric, absolute, in the characteristic's
+/// own unit), a map `{plus: 5, minus: 3, percent: false}`, or a string that says what
+/// its numbers are: a percentage of the nominal (`"±8%"`, `"+4%/-2%"`) or an amount in
+/// the characteristic's unit (`"±0.5 N·mm/°"`, `"+20/-15 N·mm"`, `"±4°"`). A string
+/// with a bare number (`"10"`, `"±10"`) is refused: a quoted number is most often a
+/// percentage whose `%` was lost, and taking it as an absolute amount would widen or
+/// narrow the drawing's limits without a word.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(try_from = "ToleranceText")]
 pub struct Tolerance {
@@ -113,13 +118,76 @@ pub struct Tolerance {
     pub minus: f64,
     /// Whether `plus` and `minus` are percentages of the nominal.
     pub percent: bool,
+    /// The unit a string tolerance was written with, checked against its characteristic
+    /// when the spec is validated; `None` for numbers, maps and percentages.
+    #[serde(skip)]
+    pub unit: Option<ToleranceUnit>,
+}
+
+/// The units a tolerance string may name; each characteristic accepts only its own.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ToleranceUnit {
+    /// N·mm/° (spring and secant rates).
+    NmmPerDeg,
+    /// N·mm (torques).
+    Nmm,
+    /// Degrees (angles).
+    Deg,
+}
+
+impl ToleranceUnit {
+    /// The unit as the reports write it.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            ToleranceUnit::NmmPerDeg => "N·mm/°",
+            ToleranceUnit::Nmm => "N·mm",
+            ToleranceUnit::Deg => "°",
+        }
+    }
+
+    /// Reads a unit written after a tolerance's numbers (`N·mm/°`, `Nmm/deg`, `N.mm`, `°`, `deg`…).
+    fn parse(text: &str) -> Option<ToleranceUnit> {
+        let folded: String = text
+            .chars()
+            .filter(|c| !matches!(c, '·' | '.' | '*' | ' ' | '⋅'))
+            .collect::<String>()
+            .to_ascii_lowercase()
+            .replace('°', "deg");
+        match folded.as_str() {
+            "nmm/deg" => Some(ToleranceUnit::NmmPerDeg),
+            "nmm" => Some(ToleranceUnit::Nmm),
+            "deg" => Some(ToleranceUnit::Deg),
+            _ => None,
+        }
+    }
 }
 
 impl Tolerance {
+    /// A tolerance of `plus` and `minus` (percent of the nominal when `percent`), with no unit written.
+    pub fn new(plus: f64, minus: f64, percent: bool) -> Tolerance {
+        Tolerance { plus, minus, percent, unit: None }
+    }
+
     /// The limits this tolerance sets around `nominal`.
     pub fn limits(&self, nominal: f64) -> Limits {
         let scale = if self.percent { nominal.abs() / 100.0 } else { 1.0 };
         Limits { lower: Some(nominal - self.minus * scale), upper: Some(nominal + self.plus * scale) }
+    }
+
+    /// Refuses a unit written for another kind of characteristic (`±4°` on a torque).
+    fn check_unit(&self, expected: ToleranceUnit) -> Result<(), String> {
+        match self.unit {
+            Some(unit) if unit != expected => Err(format!(
+                "the tolerance is written in {} but this characteristic is in {}: write the amount in {} \
+                 (e.g. `±{} {}`) or as a percentage of the nominal (e.g. `±8%`)",
+                unit.symbol(),
+                expected.symbol(),
+                expected.symbol(),
+                self.plus,
+                expected.symbol()
+            )),
+            _ => Ok(()),
+        }
     }
 }
 
@@ -140,9 +208,9 @@ impl TryFrom<ToleranceText> for Tolerance {
     type Error = String;
     fn try_from(raw: ToleranceText) -> Result<Self, String> {
         let tolerance = match raw {
-            ToleranceText::Number(value) => Tolerance { plus: value, minus: value, percent: false },
+            ToleranceText::Number(value) => Tolerance::new(value, value, false),
             ToleranceText::Text(text) => text.parse()?,
-            ToleranceText::Map { plus, minus, percent } => Tolerance { plus, minus, percent },
+            ToleranceText::Map { plus, minus, percent } => Tolerance::new(plus, minus, percent),
         };
         if !(tolerance.plus.is_finite() && tolerance.minus.is_finite())
             || tolerance.plus < 0.0
@@ -158,8 +226,25 @@ impl FromStr for Tolerance {
     type Err = String;
 
     fn from_str(text: &str) -> Result<Self, String> {
-        let bad = || format!("`{text}` is not a tolerance (write e.g. `±8%`, `+5/-3` or `0.5`)");
+        let bad = || {
+            format!(
+                "`{text}` is not a tolerance (write e.g. `±8%`, `+4%/-2%`, `±0.5 N·mm/°`, `+20/-15 N·mm`, \
+                 or an unquoted number for an amount in the characteristic's unit)"
+            )
+        };
         let compact: String = text.chars().filter(|c| !c.is_whitespace()).collect();
+        // The unit, if any, follows the last digit or `%`.
+        let numbers_end = compact.rfind(|c: char| c.is_ascii_digit() || c == '%').map_or(0, |i| i + 1);
+        let (numbers, unit_text) = compact.split_at(numbers_end);
+        let unit = match unit_text {
+            "" => None,
+            other => Some(ToleranceUnit::parse(other).ok_or_else(|| {
+                format!(
+                    "`{text}`: `{other}` is not a unit a tolerance can be written in (use N·mm/° for rates, \
+                     N·mm for torques, ° for angles, or % of the nominal)"
+                )
+            })?),
+        };
         let number = |part: &str| -> Result<(f64, bool), String> {
             let (digits, percent) = match part.strip_suffix('%') {
                 Some(digits) => (digits, true),
@@ -167,15 +252,14 @@ impl FromStr for Tolerance {
             };
             digits.parse::<f64>().map(|v| (v, percent)).map_err(|_| bad())
         };
-        let symmetric = compact
+        let symmetric = numbers
             .strip_prefix('±')
-            .or_else(|| compact.strip_prefix("+/-"))
-            .or_else(|| compact.strip_prefix("+-"));
-        if let Some(rest) = symmetric {
+            .or_else(|| numbers.strip_prefix("+/-"))
+            .or_else(|| numbers.strip_prefix("+-"));
+        let tolerance = if let Some(rest) = symmetric {
             let (value, percent) = number(rest)?;
-            return Ok(Tolerance { plus: value, minus: value, percent });
-        }
-        if let Some((plus, minus)) = compact.split_once('/') {
+            Tolerance::new(value, value, percent)
+        } else if let Some((plus, minus)) = numbers.split_once('/') {
             let plus = plus.strip_prefix('+').ok_or_else(bad)?;
             let minus = minus.strip_prefix('-').ok_or_else(bad)?;
             let (plus, plus_pct) = number(plus)?;
@@ -183,10 +267,25 @@ impl FromStr for Tolerance {
             if plus_pct != minus_pct {
                 return Err(format!("`{text}` mixes a percentage with an absolute value"));
             }
-            return Ok(Tolerance { plus, minus, percent: plus_pct });
+            Tolerance::new(plus, minus, plus_pct)
+        } else {
+            let (value, percent) = number(numbers)?;
+            Tolerance::new(value, value, percent)
+        };
+        match (tolerance.percent, unit) {
+            (true, Some(unit)) => Err(format!(
+                "`{text}` gives both a percentage and a unit ({}); write one of them",
+                unit.symbol()
+            )),
+            (false, None) => Err(format!(
+                "`{text}` has no unit and no `%`: a number in quotes is ambiguous (it is often a percentage \
+                 whose `%` was lost). Write `±{0}%` for a percentage of the nominal, the amount with the \
+                 characteristic's unit (e.g. `±{0} N·mm/°` for a rate, `±{0} N·mm` for a torque, `±{0}°` for \
+                 an angle), or an unquoted number `{0}` for an amount in the characteristic's unit",
+                tolerance.plus
+            )),
+            _ => Ok(Tolerance { unit, ..tolerance }),
         }
-        let (value, percent) = number(&compact)?;
-        Ok(Tolerance { plus: value, minus: value, percent })
     }
 }
 
@@ -555,6 +654,29 @@ impl PartSpec {
                 return fail(field, format!("must be positive, found {value}"));
             }
         }
+        let c = &self.characteristics;
+        let units = c
+            .rate_nmm_per_deg
+            .iter()
+            .map(|r| ("characteristics.rate_nmm_per_deg.tolerance", r.tolerance, ToleranceUnit::NmmPerDeg))
+            .chain(
+                c.secant_rate.iter().map(|s| {
+                    ("characteristics.secant_rate.tolerance", s.tolerance, ToleranceUnit::NmmPerDeg)
+                }),
+            )
+            .chain(
+                c.free_angle_deg
+                    .iter()
+                    .map(|f| ("characteristics.free_angle_deg.tolerance", f.tolerance, ToleranceUnit::Deg)),
+            )
+            .chain(
+                c.torque_at.iter().map(|t| ("characteristics.torque_at", t.tolerance, ToleranceUnit::Nmm)),
+            );
+        for (field, tolerance, unit) in units {
+            if let Err(message) = tolerance.check_unit(unit) {
+                return fail(field, message);
+            }
+        }
         for torque in &self.characteristics.torque_at {
             if torque.angle_deg > self.test.max_angle_deg {
                 return fail(
@@ -682,7 +804,7 @@ test:
 characteristics:
   rate_nmm_per_deg: { nominal: 4.0, tolerance: "±8%", class: major }
   torque_at:
-    - { angle_deg: 60, nominal_nmm: 240, tolerance: "+20/-15", class: critical }
+    - { angle_deg: 60, nominal_nmm: 240, tolerance: "+20/-15 N·mm", class: critical }
   free_angle_deg: { nominal: 0, tolerance: 3, class: minor }
   hysteresis: { at_angles_deg: [45], max_pct: 8, class: minor }
   linearity: { max_pct: 3, class: minor }
@@ -736,13 +858,68 @@ sampling:
     #[test]
     fn tolerance_spellings() {
         let t: Tolerance = "±8%".parse().unwrap();
-        assert_eq!(t, Tolerance { plus: 8.0, minus: 8.0, percent: true });
-        let t: Tolerance = "+5 / -3".parse().unwrap();
-        assert_eq!(t, Tolerance { plus: 5.0, minus: 3.0, percent: false });
+        assert_eq!(t, Tolerance::new(8.0, 8.0, true));
+        let t: Tolerance = "+5 / -3 N·mm".parse().unwrap();
+        assert_eq!(t, Tolerance { unit: Some(ToleranceUnit::Nmm), ..Tolerance::new(5.0, 3.0, false) });
         let t: Tolerance = "+4%/-2%".parse().unwrap();
         assert_eq!(t.limits(50.0), Limits { lower: Some(49.0), upper: Some(52.0) });
+        for (text, unit) in [
+            ("±0.5 N·mm/°", ToleranceUnit::NmmPerDeg),
+            ("+/-0.5Nmm/deg", ToleranceUnit::NmmPerDeg),
+            ("±4°", ToleranceUnit::Deg),
+            ("± 4 deg", ToleranceUnit::Deg),
+            ("±12 N.mm", ToleranceUnit::Nmm),
+        ] {
+            let t: Tolerance = text.parse().unwrap_or_else(|e| panic!("{text}: {e}"));
+            assert_eq!(t.unit, Some(unit), "{text}");
+            assert!(!t.percent, "{text}");
+        }
         assert!("+4%/-2".parse::<Tolerance>().is_err());
         assert!("about 3".parse::<Tolerance>().is_err());
+        assert!("±3 furlongs".parse::<Tolerance>().unwrap_err().contains("`furlongs` is not a unit"));
+        assert!("±3% N·mm".parse::<Tolerance>().unwrap_err().contains("both a percentage and a unit"));
+    }
+
+    #[test]
+    fn a_quoted_bare_number_is_refused_with_how_to_write_it() {
+        for text in ["10", "±10", "+5/-3", " 0.5 "] {
+            let err = text.parse::<Tolerance>().unwrap_err();
+            assert!(
+                err.contains("no unit and no `%`") && err.contains("%` for a percentage"),
+                "{text}: {err}"
+            );
+        }
+        // In a spec the refusal names the file, the line and the field.
+        let text = SPEC.replace("tolerance: \"±8%\"", "tolerance: \"10\"");
+        let err = PartSpec::from_yaml("ts100.yaml", &text).unwrap_err();
+        let line = text.lines().position(|l| l.contains("tolerance: \"10\"")).unwrap() + 1;
+        assert_eq!(err.line, Some(line), "{err}");
+        let message = err.to_string();
+        assert!(message.contains("ts100.yaml") && message.contains("rate_nmm_per_deg"), "{message}");
+        assert!(message.contains("`±10%`"), "{message}");
+        // An unquoted YAML number still means an amount in the characteristic's unit.
+        let text = SPEC.replace("tolerance: \"±8%\"", "tolerance: 0.25");
+        let spec = PartSpec::from_yaml("ts100.yaml", &text).unwrap();
+        let limits = spec.characteristics.rate_nmm_per_deg.unwrap().limits();
+        // Common practice, no published source: an absolute tolerance t gives nominal ± t.
+        assert_eq!((limits.lower, limits.upper), (Some(3.75), Some(4.25)));
+    }
+
+    #[test]
+    fn a_unit_of_another_characteristic_is_refused() {
+        let text = SPEC.replace("tolerance: \"±8%\"", "tolerance: \"±0.3 N·mm\"");
+        let err = PartSpec::from_yaml("ts100.yaml", &text).unwrap_err();
+        assert_eq!(err.field.as_deref(), Some("characteristics.rate_nmm_per_deg.tolerance"), "{err}");
+        assert!(err.message.contains("written in N·mm but this characteristic is in N·mm/°"), "{err}");
+        let text = SPEC.replace("tolerance: \"±8%\"", "tolerance: \"±0.3 N·mm/°\"");
+        let limits = PartSpec::from_yaml("ts100.yaml", &text)
+            .unwrap()
+            .characteristics
+            .rate_nmm_per_deg
+            .unwrap()
+            .limits();
+        // Common practice, no published source: nominal 4.0 ± 0.3 N·mm/°.
+        assert!((limits.lower.unwrap() - 3.7).abs() < 1e-12 && (limits.upper.unwrap() - 4.3).abs() < 1e-12);
     }
 
     #[test]

@@ -200,7 +200,12 @@ pub(crate) fn find_spec<'a>(
                     upper: None,
                     verdict: Verdict::Invalid,
                     message: match &meta.part {
-                        Some(part) => format!("no spec for part `{part}` in the plant's parts folder"),
+                        Some(part) => match library.problems_for(part).next() {
+                            Some(problem) => {
+                                format!("the spec for part `{part}` does not load: {}", problem.reason)
+                            }
+                            None => format!("no spec for part `{part}` in the plant's parts folder"),
+                        },
                         None => "the export names no part number, so no spec applies".into(),
                     },
                 }),

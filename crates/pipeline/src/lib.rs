@@ -15,7 +15,8 @@
 //! Not for: computations (layer-1 crates), rendering (report) or printing (cli).
 //!
 //! Main types: [`OpenPlant`], [`OpenOptions`], [`PluginCatalog`], [`Plant`],
-//! [`SpecLibrary`], [`ShiftSink`], [`SinkSet`], [`SwitchingRecord`], [`PlannedShift`].
+//! [`SpecLibrary`] (specs that load, and the problems of those that do not),
+//! [`ShiftSink`], [`SinkSet`], [`SwitchingRecord`] (keyed by lot), [`PlannedShift`].
 
 pub mod dispatch;
 mod dynamic;

@@ -11,6 +11,7 @@ use crate::plugins::{PluginCatalog, PluginError, Schemes};
 use std::path::{Path, PathBuf};
 use twistlot_ingest::FormatSet;
 use twistlot_model::plugin::SinkManifest;
+use twistlot_model::{Approval, PlantOffset};
 use twistlot_report::{Renderer, ReportError};
 use twistlot_stats::{CheckError, CheckSet};
 
@@ -34,6 +35,9 @@ pub struct OpenOptions {
     pub history: Option<PathBuf>,
     /// Create the history folder when it does not exist (`--init-history`).
     pub init_history: bool,
+    /// Names for the reports' approval block given on the command line (`--tested-by`…);
+    /// each one given replaces the plant config's.
+    pub approval: Approval,
 }
 
 /// Why a plant could not be opened.
@@ -88,6 +92,8 @@ pub struct OpenPlant {
     pub specs: SpecLibrary,
     /// History folder, when the plant keeps one.
     pub history_dir: Option<PathBuf>,
+    /// Who signs the lot reports: the plant config's names, overridden by the command line's.
+    pub approval: Approval,
 }
 
 impl OpenPlant {
@@ -135,7 +141,22 @@ impl OpenPlant {
                     .map_err(|source| OpenError::CreateHistory { path: dir.clone(), source })?;
             }
         }
-        Ok(OpenPlant { config, catalog, formats, checks, schemes, specs, history_dir })
+        let approval =
+            config.as_ref().map(|c| c.approval.clone()).unwrap_or_default().overridden_by(&options.approval);
+        Ok(OpenPlant { config, catalog, formats, checks, schemes, specs, history_dir, approval })
+    }
+
+    /// The plant clock's offset from UTC (UTC when the plant config gives none).
+    pub fn utc_offset(&self) -> PlantOffset {
+        self.config.as_ref().and_then(|c| c.utc_offset).unwrap_or(PlantOffset::UTC)
+    }
+
+    /// Now on the plant's clock, to the second with its offset (`2026-12-01 22:14:05 +01:00`).
+    pub fn stamp_now(&self) -> String {
+        let now = std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map_or(0, |d| i64::try_from(d.as_secs()).unwrap_or(i64::MAX));
+        self.utc_offset().stamp(now)
     }
 
     /// The plant's name, or a placeholder when no plant config was opened.

@@ -9,7 +9,7 @@ use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 use twistlot_model::plugin::SinkManifest;
-use twistlot_model::{ShiftRecord, TestRecord, Verdict};
+use twistlot_model::{Approval, DecidingPlan, ShiftRecord, TestRecord, Verdict};
 use twistlot_report as report;
 
 /// Writes `bytes` to `path` through a temporary file in the same folder and a rename.
@@ -55,6 +55,7 @@ pub struct ReportWriter {
     plant: String,
     generated_at: String,
     curves_per_chart: usize,
+    approval: Approval,
 }
 
 impl ReportWriter {
@@ -67,7 +68,14 @@ impl ReportWriter {
             plant: String::new(),
             generated_at: String::new(),
             curves_per_chart,
+            approval: Approval::default(),
         }
+    }
+
+    /// The names for the reports' approval block (blank lines where none are given).
+    pub fn with_approval(mut self, approval: Approval) -> ReportWriter {
+        self.approval = approval;
+        self
     }
 
     fn render(&self, template: &str, context: &impl serde::Serialize) -> Result<String, SinkError> {
@@ -97,7 +105,8 @@ impl ShiftSink for ReportWriter {
         context.generated_at = self.generated_at.clone();
         context.shift = self.shift.clone();
         context.plant = self.plant.clone();
-        context.rejected_files = event.rejected.to_vec();
+        context.unassigned_files = event.unassigned_rejected;
+        context.approval = self.approval.clone();
         context.charts = lot_charts(event, self.curves_per_chart);
         let html = self.render("lot_report.html.j2", &context)?;
         write_atomic(&self.out_dir.join(&record.report_html), html.as_bytes())?;
@@ -116,41 +125,60 @@ impl ShiftSink for ReportWriter {
     }
 }
 
-/// The three charts of a lot report; a chart that cannot be drawn shows "no data".
+/// The charts of a lot report; a chart that cannot be drawn shows "no data".
 fn lot_charts(event: &LotEvent<'_>, curves_per_chart: usize) -> report::Charts {
     let record = event.record;
     let spec = event.spec.map(|e| &e.spec);
-    let counted = || event.tests.iter().filter(|t| t.status.is_counted());
-    // A swing-tested part's rate is its dynamic rate, with the dynamic tolerance.
-    let rates: Vec<f64> = counted().filter_map(|t| t.measured_rate_nmm_per_deg()).collect();
-    let c = spec.map(|s| &s.characteristics);
-    let rate_spec = c.and_then(|c| {
-        c.rate_nmm_per_deg.as_ref().or_else(|| c.dynamic.as_ref().and_then(|d| d.rate_nmm_per_deg.as_ref()))
-    });
-    let rate_stats = record.statistics.iter().find(|s| s.characteristic == "rate").or_else(|| {
-        record.statistics.iter().find(|s| s.characteristic == twistlot_model::spec::DYNAMIC_RATE)
-    });
-    // A fitted normal curve only where the normality test ran and did not reject it.
-    let fit = rate_stats
-        .filter(|s| s.capability.normal_curve)
-        .and_then(|s| Some((s.capability.mean?, s.capability.sd?)));
-    let histogram = report::rate_histogram_svg(
-        &rates,
-        rate_spec.and_then(|r| r.limits().lower),
-        rate_spec.and_then(|r| r.limits().upper),
-        rate_spec.map(|r| r.nominal),
-        fit,
-        "N·mm/°",
-    );
+    let counted: Vec<&TestRecord> = event.tests.iter().copied().filter(|t| t.status.is_counted()).collect();
+    // A chart that fails to draw becomes a "no data" box rather than failing the report.
+    let no_data = |chart: Result<report::SvgMarkup, report::ReportError>, what: &str| {
+        chart.unwrap_or_else(|_| report::no_data_svg(what))
+    };
+
+    // One strip per characteristic with statistics (rate first), from the counted tests' findings.
+    let mut values = Vec::new();
+    for stats in &record.statistics {
+        let points: Vec<report::StripPoint> = counted
+            .iter()
+            .filter_map(|t| {
+                let finding = t.findings.iter().find(|f| f.characteristic == stats.characteristic)?;
+                Some(report::StripPoint { value: finding.value?, verdict: finding.verdict })
+            })
+            .collect();
+        if points.is_empty() {
+            continue;
+        }
+        let nominal = spec.and_then(|s| nominal_of(s, &stats.characteristic));
+        // A fitted normal only where the normality test ran and did not reject it.
+        let fit = stats
+            .capability
+            .normal_curve
+            .then(|| Some((stats.capability.mean?, stats.capability.sd?)))
+            .flatten();
+        let chart = report::StripChart {
+            characteristic: &stats.characteristic,
+            unit: &stats.unit,
+            points: &points,
+            lower: stats.lower,
+            upper: stats.upper,
+            nominal,
+            normal_fit: fit,
+        };
+        values.push(report::ValuesChart {
+            characteristic: stats.characteristic.clone(),
+            svg: no_data(report::strip_chart_svg(&chart), &stats.characteristic),
+        });
+    }
+
     let lines: Vec<report::CurveLine> = event
         .curves
         .iter()
         .take(curves_per_chart)
-        .map(|(label, flagged, preview)| report::CurveLine {
-            label: label.clone(),
-            angle_deg: preview.angle_deg.clone(),
-            torque_nmm: preview.torque_nmm.clone(),
-            flagged: *flagged,
+        .map(|curve| report::CurveLine {
+            label: curve.label.clone(),
+            angle_deg: curve.preview.angle_deg.clone(),
+            torque_nmm: curve.preview.torque_nmm.clone(),
+            verdict: curve.verdict.unwrap_or(Verdict::Invalid),
         })
         .collect();
     let windows: Vec<report::ToleranceWindow> = spec
@@ -166,44 +194,128 @@ fn lot_charts(event: &LotEvent<'_>, curves_per_chart: usize) -> report::Charts {
                 .collect()
         })
         .unwrap_or_default();
-    let curves = report::curves_svg(&lines, &windows);
-    let shown = record.decision.as_ref().and_then(|d| d.shown_plan());
-    let (oc_points, oc_lot) = match shown {
-        Some(class) => {
-            let plan = &class.plan;
-            let points: Vec<(f64, f64)> = twistlot_sampling::attribute_oc(
-                plan.sample_size,
-                plan.accept,
-                Some(record.quantity),
-                30.0,
-                61,
-            )
-            .into_iter()
-            .map(|pt| (pt.defective_pct, pt.p_accept))
-            .collect();
-            let observed = (class.tested > 0).then(|| {
-                let pct = 100.0 * class.defectives as f64 / class.tested as f64;
-                let p_accept = twistlot_sampling::oc::attribute_p_accept(
-                    plan.sample_size,
-                    plan.accept,
-                    Some(record.quantity),
-                    pct,
-                );
-                (pct, p_accept)
-            });
-            (points, observed)
-        }
-        None => (Vec::new(), None),
-    };
-    let oc = report::oc_curve_svg(&oc_points, oc_lot, "probability of accepting a lot");
-    let chart = |result: Result<report::SvgMarkup, report::ReportError>, empty: &str| {
-        result.or_else(|_| report::rate_histogram_svg(&[], None, None, None, None, empty)).unwrap_or_default()
-    };
+    let free_angle = spec.and_then(|s| s.characteristics.free_angle_deg.as_ref()).map(|f| {
+        let limits = f.limits();
+        report::FreeAngleLimits { lower_deg: limits.lower, upper_deg: limits.upper }
+    });
+    let curves = report::curves_svg(&report::CurveChart {
+        curves: &lines,
+        windows: &windows,
+        free_angle,
+        curves_in_lot: event.curves_seen,
+    });
+
+    let (oc, oc_note) = oc_chart(record);
     report::Charts {
-        rate_histogram_svg: chart(histogram, "rate"),
-        curves_svg: chart(curves, "curves"),
-        oc_curve_svg: chart(oc, "OC curve"),
+        values,
+        curves_svg: no_data(curves, "curves"),
+        oc_curve_svg: no_data(oc, "OC curve"),
+        oc_note,
     }
+}
+
+/// The drawing's nominal of a characteristic named as the statistics name it.
+fn nominal_of(spec: &twistlot_model::PartSpec, characteristic: &str) -> Option<f64> {
+    let c = &spec.characteristics;
+    match characteristic {
+        "rate" => c.rate_nmm_per_deg.as_ref().map(|r| r.nominal),
+        "free_angle" => c.free_angle_deg.as_ref().map(|f| f.nominal),
+        other => c
+            .torque_at
+            .iter()
+            .find(|t| twistlot_model::spec::torque_label(t.angle_deg) == other)
+            .map(|t| t.nominal_nmm),
+    }
+}
+
+/// The OC chart of a variables plan that decided a lot.
+fn variables_oc_chart(
+    v: &twistlot_model::VariablesDecision,
+) -> (Result<report::SvgMarkup, report::ReportError>, String) {
+    let Some(k) = v.k else {
+        return (Ok(report::SvgMarkup::default()), "The variables plan could not be designed.".to_string());
+    };
+    let p_accept = |pct: f64| {
+        if v.sigma_known {
+            twistlot_sampling::oc::variables_p_accept_known(v.sample_size, k, pct)
+        } else {
+            twistlot_sampling::oc::variables_p_accept_unknown(v.sample_size, k, pct)
+        }
+    };
+    let x_max =
+        (twistlot_sampling::pct_where_p_accept_falls_to(p_accept, OC_RANGE_P_ACCEPT) * 1.15).min(100.0);
+    let points: Vec<(f64, f64)> =
+        (0..=80).map(|i| x_max * f64::from(i) / 80.0).map(|x| (x, p_accept(x))).collect();
+    let caption = format!("variables on {}: n {}, k {:.3}", v.characteristic, v.sample_size, k);
+    let chart = report::oc_curve_svg(&report::OcChart {
+        points: &points,
+        lot_point: None,
+        aql_pct: None,
+        caption: &caption,
+    });
+    let note = format!(
+        "Operating characteristic of the variables plan, which decided the lot ({caption}): the probability that a \
+         lot of a given percent defective is accepted (one limit, normal values), drawn up to where it falls below \
+         {:.0} %. The k-method judges the mean and spread rather than a count, so no observed percent defective is \
+         marked.",
+        OC_RANGE_P_ACCEPT * 100.0
+    );
+    (chart, note)
+}
+
+/// Below this probability of acceptance the OC chart's range ends: the plan's fall from
+/// accepting to rejecting is then in full view whatever its sample size.
+const OC_RANGE_P_ACCEPT: f64 = 0.05;
+
+/// The OC chart of the plan that decided the lot (or, for a lot held on the evidence, of
+/// the plan with the largest sample), with a sentence saying which and why.
+fn oc_chart(record: &twistlot_model::LotRecord) -> (Result<report::SvgMarkup, report::ReportError>, String) {
+    let Some(decision) = record.decision.as_ref() else {
+        return (Ok(report::SvgMarkup::default()), "No sampling plan applies to this lot.".to_string());
+    };
+    let lot_size = record.quantity;
+    let (class, why) = match decision.deciding_plan() {
+        Some(DecidingPlan::Class(class)) => (Some(class), "the plan whose ground decided the lot"),
+        Some(DecidingPlan::Variables(v)) => return variables_oc_chart(v),
+        None => (
+            decision.shown_plan(),
+            "no plan decided the lot (it was held on the evidence); shown is the plan with the largest sample",
+        ),
+    };
+    let Some(class) = class else {
+        return (Ok(report::SvgMarkup::default()), "No attribute plan applies to this lot.".to_string());
+    };
+    let plan = &class.plan;
+    let p_accept = |pct: f64| {
+        twistlot_sampling::oc::attribute_p_accept(plan.sample_size, plan.accept, Some(lot_size), pct)
+    };
+    let observed = (class.tested > 0).then(|| 100.0 * class.defectives as f64 / class.tested as f64);
+    let mut x_max = twistlot_sampling::pct_where_p_accept_falls_to(p_accept, OC_RANGE_P_ACCEPT) * 1.15;
+    if let Some(pct) = observed {
+        x_max = x_max.max(pct * 1.1);
+    }
+    let x_max = x_max.min(100.0);
+    let points: Vec<(f64, f64)> =
+        (0..=80).map(|i| x_max * f64::from(i) / 80.0).map(|x| (x, p_accept(x))).collect();
+    let caption = format!(
+        "{}: n {}, Ac {} Re {} ({}, letter {})",
+        class.class, plan.sample_size, plan.accept, plan.reject, plan.severity, plan.code_letter
+    );
+    let chart = report::oc_curve_svg(&report::OcChart {
+        points: &points,
+        lot_point: observed.map(|pct| (pct, p_accept(pct))),
+        aql_pct: class.aql_pct,
+        caption: &caption,
+    });
+    let note = format!(
+        "Operating characteristic of {why} ({caption}): the probability that a lot of a given percent defective \
+         is accepted, drawn up to where it falls below {:.0} %. The marked point is this lot's observed percent \
+         defective ({} of {} tested).",
+        OC_RANGE_P_ACCEPT * 100.0,
+        class.defectives,
+        class.tested
+    );
+    (chart, note)
 }
 
 /// `tests.csv`, written row by row as tests arrive.
@@ -211,12 +323,42 @@ pub struct TestsCsvWriter {
     renderer: report::Renderer,
     path: PathBuf,
     file: Option<BufWriter<File>>,
+    torque_angles: Vec<String>,
+    hysteresis_angles: Vec<String>,
 }
 
 impl TestsCsvWriter {
     /// A writer of `out_dir/tests.csv`.
     pub fn new(renderer: report::Renderer, out_dir: &Path) -> TestsCsvWriter {
-        TestsCsvWriter { renderer, path: out_dir.join("tests.csv"), file: None }
+        TestsCsvWriter {
+            renderer,
+            path: out_dir.join("tests.csv"),
+            file: None,
+            torque_angles: Vec::new(),
+            hysteresis_angles: Vec::new(),
+        }
+    }
+
+    /// One torque column per angle in `torque_angles` and one hysteresis column per angle
+    /// in `hysteresis_angles` (metric map keys such as `60`); values at other angles go
+    /// to the `other_angles` column.
+    pub fn with_angles(
+        mut self,
+        torque_angles: Vec<String>,
+        hysteresis_angles: Vec<String>,
+    ) -> TestsCsvWriter {
+        self.torque_angles = torque_angles;
+        self.hysteresis_angles = hysteresis_angles;
+        self
+    }
+
+    fn context(&self, header: bool, rows: Vec<TestRecord>) -> report::TestsCsv {
+        report::TestsCsv {
+            header,
+            torque_angles: self.torque_angles.clone(),
+            hysteresis_angles: self.hysteresis_angles.clone(),
+            rows,
+        }
     }
 
     fn write(&mut self, context: &report::TestsCsv) -> Result<(), SinkError> {
@@ -242,11 +384,13 @@ impl ShiftSink for TestsCsvWriter {
         }
         let file = File::create(temporary_path(&self.path)).map_err(write_error)?;
         self.file = Some(BufWriter::new(file));
-        self.write(&report::TestsCsv { header: true, rows: Vec::new() })
+        let context = self.context(true, Vec::new());
+        self.write(&context)
     }
 
     fn test(&mut self, test: &TestRecord) -> Result<(), SinkError> {
-        self.write(&report::TestsCsv { header: false, rows: vec![test.clone()] })
+        let context = self.context(false, vec![test.clone()]);
+        self.write(&context)
     }
 
     fn end(&mut self, _shift: &ShiftRecord) -> Result<(), SinkError> {

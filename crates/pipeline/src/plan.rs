@@ -213,7 +213,7 @@ pub fn test_deflection_deg(spec: &PartSpec) -> f64 {
 fn lot_needs(
     plant: &OpenPlant,
     record: Option<&SwitchingRecord>,
-    shift: &str,
+    shift_lots: &[String],
     listed: &ListedLot,
 ) -> (LotNeeds, Option<PartNeeds>) {
     let mut needs = LotNeeds {
@@ -250,7 +250,8 @@ fn lot_needs(
         return fail(needs, format!("there is no sampling-scheme plugin named `{}`", sampling.scheme));
     };
     let standing = match record {
-        Some(record) => record.standing_before(&spec.part, shift, rules, &conditions(plant, &spec.part)),
+        // The part's standing before any of this shift's lots, as the shift run replays it.
+        Some(record) => record.standing_before(&spec.part, shift_lots, rules, &conditions(plant, &spec.part)),
         None => PartStanding::fresh(),
     };
     needs.severity = Some(standing.inspection_state());
@@ -321,10 +322,11 @@ pub fn plan_shift(plant: &OpenPlant, shift_dir: &Path, budget: Budget) -> Result
     let record =
         plant.history_dir.as_deref().map(SwitchingRecord::load).transpose().map_err(PlanRunError::History)?;
 
+    let shift_lots: Vec<String> = list.lots.iter().map(|l| l.lot.clone()).collect();
     let mut jobs = Vec::new();
     let mut lots = Vec::new();
     for listed in &list.lots {
-        let (needs, part) = lot_needs(plant, record.as_ref(), &shift, listed);
+        let (needs, part) = lot_needs(plant, record.as_ref(), &shift_lots, listed);
         if let Some(part) = part {
             jobs.push(Job::from_listed(listed, part));
         }

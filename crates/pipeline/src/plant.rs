@@ -4,7 +4,7 @@ use serde::Deserialize;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use twistlot_model::yaml::parse_document;
-use twistlot_model::{validate_rigs, DocumentError, PartSpec, Rig};
+use twistlot_model::{validate_rigs, Approval, DocumentError, PartSpec, PlantOffset, Rig, SpecProblem};
 
 /// The plant config as written (paths relative to the file).
 #[derive(Debug, Clone, Deserialize)]
@@ -36,6 +36,23 @@ struct PlantFile {
     switching: SwitchingConfig,
     #[serde(default)]
     physics: PhysicsConfig,
+    utc_offset: Option<PlantOffset>,
+    #[serde(default)]
+    approval: Approval,
+    #[serde(default)]
+    unknown_rigs: UnknownRigs,
+}
+
+/// What a shift does with an export from a rig the plant config does not list
+/// (plant config `unknown_rigs`).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Deserialize, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum UnknownRigs {
+    /// Evaluate the export and warn (in the terminal, `summary.json` and the lot report).
+    #[default]
+    Warn,
+    /// Reject the export: a rig the plant does not know cannot be shown to be calibrated.
+    Refuse,
 }
 
 /// The plant's settings for the spring physics: how far a measured rate may sit from the
@@ -132,6 +149,19 @@ pub struct Plant {
     pub switching: SwitchingConfig,
     /// Theoretical-rate band and free-swing analysis settings.
     pub physics: PhysicsConfig,
+    /// The plant clock's offset from UTC, for stamping outputs (UTC when not given).
+    pub utc_offset: Option<PlantOffset>,
+    /// Who signs lot reports, as far as the plant config names them.
+    pub approval: Approval,
+    /// What a shift does with exports from rigs not listed under `rigs`.
+    pub unknown_rigs: UnknownRigs,
+}
+
+impl Plant {
+    /// The rig named `name` in the plant config.
+    pub fn rig(&self, name: &str) -> Option<&Rig> {
+        self.rigs.iter().find(|r| r.name == name)
+    }
 }
 
 /// Why the plant config or a spec did not load.
@@ -207,6 +237,9 @@ impl Plant {
             capability: file.capability,
             switching: file.switching,
             physics: file.physics,
+            utc_offset: file.utc_offset,
+            approval: file.approval,
+            unknown_rigs: file.unknown_rigs,
         })
     }
 }
@@ -220,14 +253,21 @@ pub struct SpecEntry {
     pub path: PathBuf,
 }
 
-/// Part specs by part number.
+/// Part specs by part number, and the spec files that did not load.
+///
+/// One bad file does not stop the plant: it is kept as a [`SpecProblem`] (with the part
+/// it names, when that much can be read), so a shift holds that part's lots with the
+/// reason and decides all the others.
 #[derive(Debug, Clone, Default)]
 pub struct SpecLibrary {
     specs: BTreeMap<String, SpecEntry>,
+    problems: Vec<SpecProblem>,
 }
 
 impl SpecLibrary {
-    /// Loads every `*.yaml` spec in a folder; any bad spec is an error naming its file and line.
+    /// Loads every `*.yaml` spec in a folder; a file that does not load, or a second spec
+    /// for one part, is kept as a problem naming its file, line and field. Only a folder
+    /// that cannot be listed is an error.
     pub fn load_dir(dir: &Path) -> Result<SpecLibrary, PlantError> {
         let entries = std::fs::read_dir(dir)
             .map_err(|source| PlantError::Read { path: dir.display().to_string(), source })?;
@@ -237,20 +277,45 @@ impl SpecLibrary {
             .collect();
         paths.sort();
         let mut library = SpecLibrary::default();
+        let mut claimed: BTreeMap<String, Vec<PathBuf>> = BTreeMap::new();
         for path in paths {
-            library.add_file(&path)?;
+            match library.add_file(&path) {
+                Ok(part) => claimed.entry(part).or_default().push(path),
+                Err(PlantError::DuplicatePart { part, .. }) => claimed.entry(part).or_default().push(path),
+                Err(err) => library.problems.push(SpecProblem {
+                    file: path.display().to_string(),
+                    part: part_named_in(&path),
+                    reason: err.to_string(),
+                }),
+            }
+        }
+        // Two specs for one part: neither can be trusted to be the drawing in force.
+        for (part, files) in claimed.into_iter().filter(|(_, files)| files.len() > 1) {
+            library.specs.remove(&part);
+            let names: Vec<String> = files.iter().map(|f| f.display().to_string()).collect();
+            for file in &names {
+                library.problems.push(SpecProblem {
+                    file: file.clone(),
+                    part: Some(part.clone()),
+                    reason: format!(
+                        "part `{part}` has {} specs ({}); keep only the one for the drawing revision in force",
+                        names.len(),
+                        names.join(", ")
+                    ),
+                });
+            }
         }
         Ok(library)
     }
 
-    /// A library of one spec file.
+    /// A library of one spec file; any problem with it is an error.
     pub fn single(path: &Path) -> Result<SpecLibrary, PlantError> {
         let mut library = SpecLibrary::default();
         library.add_file(path)?;
         Ok(library)
     }
 
-    fn add_file(&mut self, path: &Path) -> Result<(), PlantError> {
+    fn add_file(&mut self, path: &Path) -> Result<String, PlantError> {
         let text = read(path)?;
         let spec = PartSpec::from_yaml(&path.display().to_string(), &text)?;
         if let Some(existing) = self.specs.get(&spec.part) {
@@ -260,8 +325,9 @@ impl SpecLibrary {
                 second: path.display().to_string(),
             });
         }
-        self.specs.insert(spec.part.clone(), SpecEntry { spec, path: path.to_path_buf() });
-        Ok(())
+        let part = spec.part.clone();
+        self.specs.insert(part.clone(), SpecEntry { spec, path: path.to_path_buf() });
+        Ok(part)
     }
 
     /// The spec for a part number.
@@ -279,6 +345,21 @@ impl SpecLibrary {
         self.specs.keys().map(String::as_str)
     }
 
+    /// Every loaded spec, by part number.
+    pub fn entries(&self) -> impl Iterator<Item = &SpecEntry> {
+        self.specs.values()
+    }
+
+    /// Spec files that did not load.
+    pub fn problems(&self) -> &[SpecProblem] {
+        &self.problems
+    }
+
+    /// The problems of the spec files that name `part`.
+    pub fn problems_for<'a>(&'a self, part: &'a str) -> impl Iterator<Item = &'a SpecProblem> + 'a {
+        self.problems.iter().filter(move |p| p.part.as_deref() == Some(part))
+    }
+
     /// Number of specs.
     pub fn len(&self) -> usize {
         self.specs.len()
@@ -287,5 +368,65 @@ impl SpecLibrary {
     /// True when empty.
     pub fn is_empty(&self) -> bool {
         self.specs.is_empty()
+    }
+}
+
+/// The part a spec file names, read leniently from a file that does not load as a
+/// spec; falls back to the file's stem (specs are usually named after their part).
+fn part_named_in(path: &Path) -> Option<String> {
+    let from_text = std::fs::read_to_string(path).ok().and_then(|text| {
+        let value: serde_yaml::Value = serde_yaml::from_str(&text).ok()?;
+        match value.get("part")? {
+            serde_yaml::Value::String(part) => Some(part.clone()),
+            serde_yaml::Value::Number(part) => Some(part.to_string()),
+            _ => None,
+        }
+    });
+    from_text.or_else(|| path.file_stem().map(|s| s.to_string_lossy().to_string()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn spec_text(part: &str, tolerance: &str) -> String {
+        format!(
+            "part: {part}\nrevision: A\ncustomer: invented\nmaterial: {{ name: wire, modulus_n_per_mm2: 206000 }}\n\
+             geometry: {{ wire_diameter_mm: 1.0, mean_diameter_mm: 8.0, body_coils: 5, leg_lengths_mm: [10, 10], wind: left }}\n\
+             test: {{ max_angle_deg: 90 }}\n\
+             characteristics:\n  rate_nmm_per_deg: {{ nominal: 4.0, tolerance: {tolerance}, class: major }}\n"
+        )
+    }
+
+    #[test]
+    fn one_broken_spec_is_kept_as_a_problem_and_the_others_load() {
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::write(dir.path().join("P-1.yaml"), spec_text("P-1", "\"±8%\"")).unwrap();
+        std::fs::write(dir.path().join("P-2.yaml"), spec_text("P-2", "\"10\"")).unwrap();
+        std::fs::write(dir.path().join("P-3.yaml"), "part: [unclosed\n").unwrap();
+        let library = SpecLibrary::load_dir(dir.path()).unwrap();
+        assert!(library.get("P-1").is_some());
+        assert_eq!(library.len(), 1);
+        let p2: Vec<&SpecProblem> = library.problems_for("P-2").collect();
+        assert_eq!(p2.len(), 1);
+        assert!(
+            p2[0].reason.contains("line 8") && p2[0].reason.contains("no unit and no `%`"),
+            "{}",
+            p2[0].reason
+        );
+        // A file too broken to name its part is known by its file name.
+        assert_eq!(library.problems_for("P-3").count(), 1);
+    }
+
+    #[test]
+    fn two_specs_for_one_part_hold_the_part_rather_than_pick_one() {
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::write(dir.path().join("a.yaml"), spec_text("P-1", "\"±8%\"")).unwrap();
+        std::fs::write(dir.path().join("b.yaml"), spec_text("P-1", "\"±5%\"")).unwrap();
+        let library = SpecLibrary::load_dir(dir.path()).unwrap();
+        assert!(library.get("P-1").is_none());
+        let problems: Vec<&SpecProblem> = library.problems_for("P-1").collect();
+        assert_eq!(problems.len(), 2);
+        assert!(problems[0].reason.contains("has 2 specs"), "{}", problems[0].reason);
     }
 }

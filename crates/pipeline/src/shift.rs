@@ -22,20 +22,22 @@ use crate::outputs::{
     lot_file_name, verdict_counts, ExecSink, ReportWriter, SummaryJsonWriter, TestsCsvWriter,
 };
 use crate::plan_check::{PlanFile, PlanFileError};
+use crate::plant::UnknownRigs;
 use crate::reference;
-use crate::sink::{LotEvent, ShiftStart, SinkSet, StoppedBy};
+use crate::sink::{LotCurve, LotEvent, ShiftStart, SinkSet, StoppedBy};
 use crate::switching::{
     conditions, describe_standing, part_rules, transition_consequence, PartStanding, SwitchingEntry,
     SwitchingRecord, SwitchingRecordError, SwitchingRecordWriter,
 };
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
-use twistlot_ingest::expand_inputs;
-use twistlot_model::record::start_seconds;
+use twistlot_ingest::{expand_inputs, IngestError};
+use twistlot_model::record::{start_key, start_seconds};
 use twistlot_model::spec::{torque_label, DYNAMIC_RATE, FREQUENCY};
 use twistlot_model::{
     CharacteristicStats, DocumentError, GroundTopic, Limits, ListedLot, LotDecision, LotList, LotRecord,
-    PlanSummary, RateSummary, RejectedFile, ShiftRecord, TestRecord, TestStatus, Verdict,
+    LotSource, PlanSummary, RateSummary, RejectedFile, RigUse, ShiftRecord, TestRecord, TestStatus,
+    UnlistedLot, Verdict,
 };
 use twistlot_sampling::{characteristic_value, decide_lot, LotInput};
 use twistlot_stats::{anderson_darling, angle_key, lot_capability, OrderedValue, Subgrouping};
@@ -44,8 +46,9 @@ use twistlot_stats::{anderson_darling, angle_key, lot_capability, OrderedValue, 
 pub const LOT_LIST: &str = "lots.yaml";
 /// Points kept per curve for the overlay chart.
 pub const PREVIEW_POINTS: usize = 300;
-/// Curves drawn per lot (flagged ones first).
-pub const CURVES_PER_CHART: usize = 40;
+/// Curves drawn per lot (failed and invalid ones first); a lot with more tests says how
+/// many of them its chart draws.
+pub const CURVES_PER_CHART: usize = 60;
 
 /// Why a shift could not be run at all (problems with single files never stop it).
 #[derive(Debug, thiserror::Error)]
@@ -74,6 +77,72 @@ pub enum ShiftError {
     /// The shift's plan is in the output folder but cannot be read.
     #[error(transparent)]
     Plan(#[from] PlanFileError),
+    /// The shift folder holds no export at all, so there is nothing to decide a lot on.
+    #[error(
+        "the shift folder {} holds no rig exports (only {}); copy the rigs' exports into it, or check the path",
+        .dir.display(),
+        if .skipped.is_empty() { "nothing".to_string() } else { .skipped.join(", ") }
+    )]
+    NoExports {
+        /// The shift folder.
+        dir: PathBuf,
+        /// The files it does hold that are not exports.
+        skipped: Vec<String>,
+    },
+}
+
+/// Files of a shift folder that are not exports, by name, with what they are. A folder
+/// walk skips them (and says so); a file named on the command line is always read.
+pub fn not_an_export(path: &Path) -> Option<&'static str> {
+    let name = path.file_name()?.to_str()?;
+    if name == LOT_LIST {
+        Some("the shift's lot list, not an export")
+    } else if name.starts_with("plan.") || name.starts_with("plan-") {
+        Some("the shift's test plan, not an export")
+    } else {
+        None
+    }
+}
+
+/// The files to read from command-line paths: every file of each folder (recursively)
+/// except the shift's own files ([`not_an_export`]), which are returned as skipped; paths
+/// that do not exist come back as rejections.
+pub fn shift_inputs(inputs: &[PathBuf]) -> (Vec<PathBuf>, Vec<IngestError>, Vec<RejectedFile>) {
+    let (mut files, mut missing, mut skipped) = (Vec::new(), Vec::new(), Vec::new());
+    for input in inputs {
+        let (found, not_found) = expand_inputs(std::slice::from_ref(input));
+        missing.extend(not_found);
+        if !input.is_dir() {
+            files.extend(found);
+            continue;
+        }
+        for file in found {
+            match not_an_export(&file) {
+                Some(what) => skipped.push(RejectedFile::new(file.display().to_string(), what)),
+                None => files.push(file),
+            }
+        }
+    }
+    (files, missing, skipped)
+}
+
+/// The listed lot a file's name or folders name, as a whole word (`L2612-041-018.dat`
+/// → `L2612-041`); the longest wins, so `L-10` is not taken for `L-1`.
+pub fn lot_from_file_name<'a>(file: &str, lots: &'a [ListedLot]) -> Option<&'a str> {
+    let word_edge = |c: Option<char>| c.is_none_or(|c| !c.is_ascii_alphanumeric());
+    lots.iter()
+        .map(|l| l.lot.as_str())
+        .filter(|lot| !lot.is_empty())
+        .filter(|lot| {
+            file.match_indices(lot).any(|(at, _)| {
+                word_edge(file[..at].chars().next_back()) && {
+                    // A lot followed by `-NNN` (a part number in the lot) still counts; `L-1` in `L-10` does not.
+                    let next = file[at + lot.len()..].chars().next();
+                    word_edge(next)
+                }
+            })
+        })
+        .max_by_key(|lot| lot.len())
 }
 
 /// Reads the shift's lot list.
@@ -89,9 +158,10 @@ pub fn read_lot_list(shift_dir: &Path) -> Result<LotList, ShiftError> {
     LotList::from_yaml(&path.display().to_string(), &text).map_err(ShiftError::LotList)
 }
 
-/// The current UTC time as RFC 3339, for stamping outputs and record entries.
+/// The current UTC time as RFC 3339 to the second, for record entries.
 pub fn utc_stamp() -> String {
     let now = time::OffsetDateTime::now_utc();
+    let now = now.replace_nanosecond(0).unwrap_or(now);
     now.format(&time::format_description::well_known::Rfc3339)
         .unwrap_or_else(|_| now.unix_timestamp().to_string())
 }
@@ -112,6 +182,7 @@ pub struct CurveKeeper {
 struct KeptCurve {
     test_index: usize,
     label: String,
+    verdict: Option<Verdict>,
     flagged: bool,
     preview: CurvePreview,
 }
@@ -128,7 +199,13 @@ impl CurveKeeper {
         *self.seen.entry(lot.clone()).or_default() += 1;
         let flagged = test.verdict != Some(Verdict::Pass);
         let kept = self.lots.entry(lot).or_default();
-        let curve = KeptCurve { test_index, label: test.label().to_string(), flagged, preview };
+        let curve = KeptCurve {
+            test_index,
+            label: test.label().to_string(),
+            verdict: test.verdict,
+            flagged,
+            preview,
+        };
         if kept.len() < self.per_lot {
             kept.push(curve);
         } else if flagged {
@@ -139,13 +216,24 @@ impl CurveKeeper {
         }
     }
 
-    /// The kept curves of `lot` whose tests still count, flagged first, with how many were offered.
-    pub fn take(&mut self, lot: &str, tests: &[TestRecord]) -> (Vec<(String, bool, CurvePreview)>, usize) {
+    /// The kept curves of `lot` whose tests still count, flagged first, with how many
+    /// counted tests of the lot had a curve.
+    pub fn take(&mut self, lot: &str, tests: &[TestRecord]) -> (Vec<LotCurve>, usize) {
         let mut kept = self.lots.remove(lot).unwrap_or_default();
         kept.retain(|c| tests.get(c.test_index).is_some_and(|t| t.status.is_counted()));
         kept.sort_by_key(|c| (!c.flagged, c.test_index));
-        let seen = self.seen.get(lot).copied().unwrap_or(0);
-        (kept.into_iter().map(|c| (c.label, c.flagged, c.preview)).collect(), seen)
+        let offered = self.seen.get(lot).copied().unwrap_or(0);
+        // Duplicates and superseded retests were offered too but are not drawn.
+        let not_counted = tests
+            .iter()
+            .filter(|t| t.lot.as_deref().unwrap_or_default() == lot && !t.status.is_counted())
+            .count();
+        let seen = offered.saturating_sub(not_counted).max(kept.len());
+        let curves = kept
+            .into_iter()
+            .map(|c| LotCurve { label: c.label, verdict: c.verdict, preview: c.preview })
+            .collect();
+        (curves, seen)
     }
 }
 
@@ -156,26 +244,34 @@ pub struct CollectedTests {
     pub tests: Vec<TestRecord>,
     /// Curves for the lot charts.
     pub curves: CurveKeeper,
-    /// Files that were not evaluated, with the reason.
+    /// Files that were not evaluated, with the reason (and the lot, when the file's
+    /// metadata named it before the problem).
     pub rejected: Vec<RejectedFile>,
-    /// Files found (the lot list excluded) plus paths that could not be listed.
+    /// Export files found plus paths that could not be listed (skipped files excluded).
     pub files_total: u64,
+    /// Files of the shift folder skipped by name because they are not exports.
+    pub skipped: Vec<RejectedFile>,
+    /// Warnings that decide nothing (exports from rigs the plant config does not list).
+    pub warnings: Vec<String>,
 }
 
 /// Step 1: reads and evaluates every export of the shift folder, in file order.
+///
+/// The shift's own files (the lot list, a test plan) are skipped by name. An export from
+/// a rig the plant config does not list is warned about, or rejected when the plant says
+/// `unknown_rigs: refuse`.
 pub fn collect(
     plant: &OpenPlant,
     shift_dir: &Path,
     progress: &(dyn Fn(usize, usize) + Sync),
 ) -> CollectedTests {
-    let lot_list = shift_dir.join(LOT_LIST);
-    let (files, missing) = expand_inputs(&[shift_dir.to_path_buf()]);
-    let files: Vec<PathBuf> = files.into_iter().filter(|p| *p != lot_list).collect();
+    let (files, missing, skipped) = shift_inputs(&[shift_dir.to_path_buf()]);
     let total = files.len();
     let mut collected = CollectedTests {
         curves: CurveKeeper::new(CURVES_PER_CHART),
-        rejected: missing.iter().map(|e| RejectedFile { file: e.file.clone(), reason: e.reason() }).collect(),
+        rejected: missing.iter().map(|err| rejected_file(plant, err)).collect(),
         files_total: (total + missing.len()) as u64,
+        skipped,
         ..CollectedTests::default()
     };
     let options = EvaluateOptions {
@@ -184,6 +280,8 @@ pub fn collect(
         reference_angles: reference::reference_angles(plant),
         ..EvaluateOptions::default()
     };
+    let rigs = RigCheck::of(plant);
+    let mut unknown: BTreeMap<String, Vec<String>> = BTreeMap::new();
     let mut done = 0;
     evaluate_each(
         &files,
@@ -193,21 +291,88 @@ pub fn collect(
         &options,
         |evaluated| {
             match evaluated {
-                Evaluated::Test { record, preview } => {
-                    if let Some(preview) = preview {
-                        collected.curves.offer(collected.tests.len(), &record, preview);
+                Evaluated::Test { record, preview } => match rigs.problem(&record) {
+                    Some(problem) if rigs.policy == UnknownRigs::Refuse => collected.rejected.push(RejectedFile {
+                        lot: record.lot.clone(),
+                        lot_from: record.lot.as_ref().map(|_| LotSource::Metadata),
+                        ..RejectedFile::new(
+                            record.file.clone(),
+                            format!("{problem}; the plant config refuses exports from rigs it does not list (`unknown_rigs: refuse`)"),
+                        )
+                    }),
+                    problem => {
+                        if let Some(problem) = problem {
+                            unknown.entry(problem).or_default().push(record.file.clone());
+                        }
+                        if let Some(preview) = preview {
+                            collected.curves.offer(collected.tests.len(), &record, preview);
+                        }
+                        collected.tests.push(*record);
                     }
-                    collected.tests.push(*record);
-                }
-                Evaluated::Rejected(err) => {
-                    collected.rejected.push(RejectedFile { file: err.file.clone(), reason: err.reason() })
-                }
+                },
+                Evaluated::Rejected(err) => collected.rejected.push(rejected_file(plant, &err)),
             }
             done += 1;
             progress(done, total);
         },
     );
+    if rigs.listed.is_empty() && !collected.tests.is_empty() {
+        collected.warnings.push(
+            "the plant config lists no rigs, so no export's rig could be checked against it (add them under `rigs:`)"
+                .to_string(),
+        );
+    } else {
+        for (problem, files) in unknown {
+            let first = files.first().cloned().unwrap_or_default();
+            collected.warnings.push(format!(
+                "{problem}: {} export(s) evaluated all the same (first: {first}); list the rig under `rigs:` with its \
+                 calibration due date, or set `unknown_rigs: refuse`",
+                files.len()
+            ));
+        }
+    }
     collected
+}
+
+/// A rejected file, with the lot its metadata lines name, if any (read again: only
+/// rejected files pay for that).
+fn rejected_file(plant: &OpenPlant, err: &IngestError) -> RejectedFile {
+    let lot =
+        twistlot_ingest::rejected_file_lot(Path::new(&err.file), &plant.formats, err.rig_format.as_deref());
+    RejectedFile {
+        lot_from: lot.as_ref().map(|_| LotSource::Metadata),
+        lot,
+        ..RejectedFile::new(err.file.clone(), err.reason())
+    }
+}
+
+/// The plant's rig list, to check each export's rig against.
+struct RigCheck {
+    listed: Vec<String>,
+    policy: UnknownRigs,
+}
+
+impl RigCheck {
+    fn of(plant: &OpenPlant) -> RigCheck {
+        let config = plant.config.as_ref();
+        RigCheck {
+            listed: config.map(|c| c.rigs.iter().map(|r| r.name.clone()).collect()).unwrap_or_default(),
+            policy: config.map(|c| c.unknown_rigs).unwrap_or_default(),
+        }
+    }
+
+    /// What is wrong with a test's rig, in words; `None` when the plant lists it (or lists
+    /// no rigs at all, which is warned about once).
+    fn problem(&self, test: &TestRecord) -> Option<String> {
+        if self.listed.is_empty() {
+            return None;
+        }
+        match &test.rig {
+            Some(rig) if self.listed.contains(rig) => None,
+            Some(rig) => Some(format!("rig `{rig}` is not in the plant config's rig list")),
+            None => Some("the export names no rig".to_string()),
+        }
+    }
 }
 
 /// Each part's switching standing during a shift: replayed from the record before the
@@ -215,7 +380,8 @@ pub fn collect(
 struct Standings<'a> {
     plant: &'a OpenPlant,
     record: Option<&'a SwitchingRecord>,
-    shift: &'a str,
+    /// This shift's lots: each part is judged from its entries before any of them.
+    lots: Vec<String>,
     parts: BTreeMap<String, PartStanding>,
 }
 
@@ -224,7 +390,7 @@ impl Standings<'_> {
         let rules = part_rules(&self.plant.specs.get(part)?.spec, &self.plant.schemes)?;
         let conditions = conditions(self.plant, part);
         let standing = self.parts.entry(part.to_string()).or_insert_with(|| match self.record {
-            Some(record) => record.standing_before(part, self.shift, rules, &conditions),
+            Some(record) => record.standing_before(part, &self.lots, rules, &conditions),
             None => PartStanding::fresh(),
         });
         let explanation = match self.record {
@@ -295,9 +461,24 @@ pub fn decide_and_push(
     for test in &collected.tests {
         sinks.test(test)?;
     }
+    // An unreadable file whose metadata did not name its lot may still name it in its path.
+    for rejected in collected.rejected.iter_mut().filter(|r| r.lot.is_none()) {
+        if let Some(lot) = lot_from_file_name(&rejected.file, lots) {
+            rejected.lot = Some(lot.to_string());
+            rejected.lot_from = Some(LotSource::FileName);
+        }
+    }
+    let listed: std::collections::BTreeSet<&str> = lots.iter().map(|l| l.lot.as_str()).collect();
+    let unassigned_rejected =
+        collected.rejected.iter().filter(|r| !r.lot.as_deref().is_some_and(|l| listed.contains(l))).count();
     let tests = &collected.tests;
     let verifications = reference::verify_rigs(plant, tests);
-    let mut standings = Standings { plant, record, shift, parts: BTreeMap::new() };
+    let mut standings = Standings {
+        plant,
+        record,
+        lots: lots.iter().map(|l| l.lot.clone()).collect(),
+        parts: BTreeMap::new(),
+    };
     let mut summary = ShiftRecord {
         shift: shift.to_string(),
         files_total: collected.files_total,
@@ -311,6 +492,10 @@ pub fn decide_and_push(
         duplicates: duplicates.clone(),
         rig_verifications: verifications.clone(),
         plan: plan.map(|(file, plan)| crate::plan_check::compare(file, plan, lots, tests)),
+        unlisted_lots: Vec::new(),
+        spec_problems: plant.specs.problems().to_vec(),
+        skipped_files: collected.skipped.clone(),
+        warnings: collected.warnings.clone(),
     };
     for listed in lots {
         let lot_tests: Vec<&TestRecord> =
@@ -320,11 +505,20 @@ pub fn decide_and_push(
         let standing = standings.lot_standing(&listed.part);
         let unverified = reference::unverified_for(plant, &verifications, &counted);
         let mut decision = match spec {
-            None => LotDecision::hold(
-                GroundTopic::Evidence,
-                format!("no spec for part `{}` in the plant's parts folder", listed.part),
-                None,
-            ),
+            None => {
+                let problems: Vec<String> =
+                    plant.specs.problems_for(&listed.part).map(|p| p.reason.clone()).collect();
+                let reason = if problems.is_empty() {
+                    format!("no spec for part `{}` in the plant's parts folder", listed.part)
+                } else {
+                    format!(
+                        "the spec for part `{}` does not load, so the lot cannot be judged until it is fixed: {}",
+                        listed.part,
+                        problems.join("; ")
+                    )
+                };
+                LotDecision::hold(GroundTopic::Evidence, reason, None)
+            }
             Some(entry) => {
                 let input = LotInput {
                     lot: &listed.lot,
@@ -371,6 +565,7 @@ pub fn decide_and_push(
                 .or_else(|| statistics.iter().find(|s| s.characteristic == DYNAMIC_RATE))
                 .map(|s| RateSummary::of(&s.capability)),
             grounds: decision.grounds.iter().map(|g| g.text.clone()).collect(),
+            decided_by: decision.deciding_ground().map(|g| g.text.clone()),
             report_html: format!("lots/{lot_file}.html"),
             report_md: format!("lots/{lot_file}.md"),
             duplicates: duplicates
@@ -379,6 +574,16 @@ pub fn decide_and_push(
                 .cloned()
                 .collect(),
             superseded: retests::superseded(lot_tests.iter().copied()),
+            plans: decision.plan_rows(),
+            spec_file: spec.map(|e| e.path.display().to_string()),
+            spec_revision: spec.map(|e| e.spec.revision.clone()),
+            rejected_files: collected
+                .rejected
+                .iter()
+                .filter(|r| r.lot.as_deref() == Some(listed.lot.as_str()))
+                .cloned()
+                .collect(),
+            rigs: rig_uses(plant, &lot_tests),
             decision: Some(decision),
             statistics,
         };
@@ -393,22 +598,76 @@ pub fn decide_and_push(
                 .and_then(|e| e.spec.sampling.as_ref())
                 .and_then(|s| plant.schemes.get(&s.scheme))
                 .map(|s| s.as_ref()),
-            rejected: &summary.files_rejected,
+            unassigned_rejected,
         };
         sinks.lot(&event)?;
         summary.lots.push(lot_record);
     }
-    let listed: std::collections::BTreeSet<&str> = lots.iter().map(|l| l.lot.as_str()).collect();
-    let unlisted = |t: &&TestRecord| {
+    let mut unlisted: BTreeMap<Option<String>, UnlistedLot> = BTreeMap::new();
+    let unlisted_test = |t: &&TestRecord| {
         t.status != TestStatus::Reference && !listed.contains(t.lot.as_deref().unwrap_or(""))
     };
-    for test in tests.iter().filter(unlisted) {
-        let lot = test.lot.as_deref().filter(|l| !l.is_empty()).unwrap_or("none");
-        summary.unlisted_tests.push(format!("{} (lot `{lot}` is not on the shift's lot list)", test.file));
+    for test in tests.iter().filter(unlisted_test) {
+        let lot = test.lot.as_deref().filter(|l| !l.is_empty());
+        summary.unlisted_tests.push(format!(
+            "{} (lot `{}` is not on the shift's lot list)",
+            test.file,
+            lot.unwrap_or("none")
+        ));
+        let group = unlisted.entry(lot.map(str::to_string)).or_insert_with(|| UnlistedLot {
+            lot: lot.map(str::to_string),
+            parts: Vec::new(),
+            tested: 0,
+            failed: 0,
+            invalid: 0,
+            files: Vec::new(),
+        });
+        group.files.push(test.file.clone());
+        if let Some(part) = &test.part {
+            if !group.parts.contains(part) {
+                group.parts.push(part.clone());
+            }
+        }
+        let (tested, failed, invalid) = verdict_counts(std::iter::once(test));
+        group.tested += tested;
+        group.failed += failed;
+        group.invalid += invalid;
     }
+    summary.unlisted_lots = unlisted.into_values().collect();
     summary.sink_failures = sinks.failures().to_vec();
     sinks.end(&summary)?;
     Ok(summary)
+}
+
+/// The rigs that tested a lot, with the calibration due date the plant config records
+/// for each and whether a test started after it.
+fn rig_uses(plant: &OpenPlant, tests: &[&TestRecord]) -> Vec<RigUse> {
+    let mut uses: BTreeMap<&str, RigUse> = BTreeMap::new();
+    for test in tests {
+        let Some(rig) = test.rig.as_deref() else { continue };
+        let entry = plant.config.as_ref().and_then(|c| c.rig(rig));
+        let due = entry.and_then(|e| e.calibration_due);
+        let use_ = uses.entry(rig).or_insert_with(|| RigUse {
+            rig: rig.to_string(),
+            tests: 0,
+            last_test: None,
+            calibration_due: due.map(|d| d.to_string()),
+            lapsed: false,
+            listed: entry.is_some(),
+        });
+        use_.tests += 1;
+        let started = test.started.as_deref().and_then(|s| start_key(s).map(|key| (key, s)));
+        if let Some((key, text)) = started {
+            if use_.last_test.as_deref().and_then(start_key).is_none_or(|last| key > last) {
+                use_.last_test = Some(text.to_string());
+            }
+            // Both keys are plant-local times written alike, so they compare as text.
+            if due.and_then(|d| start_key(&d.to_string())).is_some_and(|due| key > due) {
+                use_.lapsed = true;
+            }
+        }
+    }
+    uses.into_values().collect()
 }
 
 /// The Anderson–Darling p-value of the values a part's variables plan judges, when it
@@ -484,8 +743,13 @@ pub fn standard_sinks(
     shift: &str,
 ) -> Result<SinkSet, ShiftError> {
     let mut sinks = SinkSet::default();
-    sinks.push(Box::new(ReportWriter::new(plant.renderer()?, out_dir, CURVES_PER_CHART)));
-    sinks.push(Box::new(TestsCsvWriter::new(plant.renderer()?, out_dir)));
+    sinks.push(Box::new(
+        ReportWriter::new(plant.renderer()?, out_dir, CURVES_PER_CHART).with_approval(plant.approval.clone()),
+    ));
+    let (torque_angles, hysteresis_angles) = metric_angles(plant);
+    sinks.push(Box::new(
+        TestsCsvWriter::new(plant.renderer()?, out_dir).with_angles(torque_angles, hysteresis_angles),
+    ));
     for (manifest, folder) in plant.sinks()? {
         sinks.push(Box::new(ExecSink::new(manifest, folder, out_dir)));
     }
@@ -494,6 +758,24 @@ pub fn standard_sinks(
         sinks.push(Box::new(SwitchingRecordWriter::new(record, shift)));
     }
     Ok(sinks)
+}
+
+/// The angles the plant's specs and checks measure torque and hysteresis at, as the
+/// metrics' map keys, in increasing order: `tests.csv` gets one column for each.
+pub fn metric_angles(plant: &OpenPlant) -> (Vec<String>, Vec<String>) {
+    let (mut torque, mut hysteresis): (Vec<f64>, Vec<f64>) = (Vec::new(), Vec::new());
+    for entry in plant.specs.entries() {
+        let options = twistlot_stats::MetricOptions::from_spec(&entry.spec)
+            .with_check_angles(plant.checks.checks(), Some(&entry.spec.part));
+        torque.extend(options.torque_angles_deg);
+        hysteresis.extend(options.hysteresis_angles_deg);
+    }
+    let keys = |mut angles: Vec<f64>| {
+        angles.sort_by(f64::total_cmp);
+        angles.dedup();
+        angles.into_iter().map(angle_key).collect()
+    };
+    (keys(torque), keys(hysteresis))
 }
 
 /// Runs the shift in `shift_dir`, writing into `out_dir`. `progress(done, total)` is
@@ -509,12 +791,18 @@ pub fn run_shift(
     // Read before any export so that a broken record stops the run before work is spent on it.
     let record =
         plant.history_dir.as_deref().map(SwitchingRecord::load).transpose().map_err(ShiftError::History)?;
-    let mut sinks = standard_sinks(plant, out_dir, record.clone(), &shift)?;
     let found_plan = crate::plan_check::find_plan(out_dir, &shift)?;
     let mut collected = collect(plant, shift_dir, progress);
+    if collected.files_total == 0 {
+        return Err(ShiftError::NoExports {
+            dir: shift_dir.to_path_buf(),
+            skipped: collected.skipped.iter().map(|s| s.file.clone()).collect(),
+        });
+    }
+    let mut sinks = standard_sinks(plant, out_dir, record.clone(), &shift)?;
     reference::mark_references(plant, &mut collected.tests);
     let duplicates = retests::settle(&mut collected.tests);
-    let generated_at = utc_stamp();
+    let generated_at = plant.stamp_now();
     let run = ShiftRun {
         plant,
         shift: &shift,
@@ -593,8 +881,12 @@ mod tests {
         tests.push(other);
         let (kept, seen) = keeper.take("L", &tests);
         assert_eq!(seen, 6);
-        let labels: Vec<(&str, bool)> = kept.iter().map(|(l, f, _)| (l.as_str(), *f)).collect();
-        assert_eq!(labels, [("t3", true), ("t5", true), ("t0", false)]);
+        let labels: Vec<(&str, Option<Verdict>)> =
+            kept.iter().map(|c| (c.label.as_str(), c.verdict)).collect();
+        assert_eq!(
+            labels,
+            [("t3", Some(Verdict::Fail)), ("t5", Some(Verdict::Invalid)), ("t0", Some(Verdict::Pass))]
+        );
         // A curve whose test stopped counting (a superseded retest) is not drawn.
         let mut keeper = CurveKeeper::new(3);
         keeper.offer(0, &tests[0], preview(1));
@@ -697,5 +989,50 @@ mod tests {
         assert_eq!(summary.unlisted_tests, ["c.csv (lot `L-9` is not on the shift's lot list)"]);
         // With no history folder the lot is judged on normal inspection, and says why.
         assert!(lot.grounds[0].contains("no history folder"), "{:?}", lot.grounds);
+    }
+
+    fn listed(lots: &[&str]) -> Vec<ListedLot> {
+        let text: String = std::iter::once("lots:\n".to_string())
+            .chain(lots.iter().map(|l| format!("  - {{ lot: \"{l}\", part: P, quantity: 10 }}\n")))
+            .collect();
+        LotList::from_yaml("lots.yaml", &text).unwrap().lots
+    }
+
+    #[test]
+    fn a_file_name_names_its_lot_only_as_a_whole_word() {
+        let lots = listed(&["L-1", "L-10", "L2612-041"]);
+        assert_eq!(lot_from_file_name("shift/rig-c/L2612-041-018.dat", &lots), Some("L2612-041"));
+        assert_eq!(lot_from_file_name("shift/L-10/007.txt", &lots), Some("L-10"), "L-1 is not L-10");
+        assert_eq!(lot_from_file_name("shift/rig-a/L-1_007.txt", &lots), Some("L-1"));
+        assert_eq!(lot_from_file_name("shift/rig-a/XL-1.txt", &lots), None, "no match inside a word");
+        assert_eq!(lot_from_file_name("shift/rig-a/0007.txt", &lots), None);
+    }
+
+    #[test]
+    fn the_lot_list_and_plans_are_skipped_in_folders_and_read_when_named() {
+        let dir = tempfile::tempdir().unwrap();
+        for name in ["lots.yaml", "plan.json", "a.csv", "sub/lots.yaml", "sub/b.csv"] {
+            let path = dir.path().join(name);
+            std::fs::create_dir_all(path.parent().unwrap()).unwrap();
+            std::fs::write(path, "x").unwrap();
+        }
+        let (files, missing, skipped) = shift_inputs(&[dir.path().to_path_buf()]);
+        let names = |paths: Vec<String>| -> Vec<String> {
+            let root = dir.path().display().to_string();
+            paths
+                .into_iter()
+                .map(|p| p.trim_start_matches(&root).trim_start_matches('/').to_string())
+                .collect()
+        };
+        assert_eq!(names(files.iter().map(|f| f.display().to_string()).collect()), ["a.csv", "sub/b.csv"]);
+        assert!(missing.is_empty());
+        let skipped_names = names(skipped.iter().map(|s| s.file.clone()).collect());
+        assert_eq!(skipped_names, ["lots.yaml", "plan.json", "sub/lots.yaml"]);
+        assert!(skipped[0].reason.contains("lot list") && skipped[1].reason.contains("test plan"));
+        // Named on the command line, a file is read whatever its name.
+        let (files, _, skipped) = shift_inputs(&[dir.path().join("lots.yaml")]);
+        assert_eq!((files.len(), skipped.len()), (1, 0));
+        let (_, missing, _) = shift_inputs(&[dir.path().join("nope")]);
+        assert_eq!(missing.len(), 1);
     }
 }

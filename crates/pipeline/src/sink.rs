@@ -24,7 +24,7 @@
 use crate::evaluate::CurvePreview;
 use crate::plant::SpecEntry;
 use std::path::Path;
-use twistlot_model::{LotRecord, RejectedFile, ShiftRecord, TestRecord};
+use twistlot_model::{LotRecord, ShiftRecord, TestRecord, Verdict};
 
 /// What a failing sink does to the run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -80,23 +80,34 @@ pub struct ShiftStart<'a> {
     pub generated_at: &'a str,
 }
 
+/// A curve kept for a lot's overlay chart.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LotCurve {
+    /// The test's label (its serial, or its file).
+    pub label: String,
+    /// The test's verdict (none when there was no spec).
+    pub verdict: Option<Verdict>,
+    /// The thinned curve.
+    pub preview: CurvePreview,
+}
+
 /// A decided lot and what the reports need to show it.
 #[derive(Debug, Clone, Copy)]
 pub struct LotEvent<'a> {
-    /// The lot record.
+    /// The lot record (its `rejected_files` are this lot's unreadable files).
     pub record: &'a LotRecord,
     /// Every test of the lot (counted, duplicate and superseded), in file order.
     pub tests: &'a [&'a TestRecord],
-    /// Curves kept for the overlay chart (flagged first), with their tests' labels.
-    pub curves: &'a [(String, bool, CurvePreview)],
+    /// Curves kept for the overlay chart, failed and invalid first.
+    pub curves: &'a [LotCurve],
     /// Tests of the lot that carried a curve, whether or not it was kept.
     pub curves_seen: usize,
     /// The part's spec, when there is one.
     pub spec: Option<&'a SpecEntry>,
     /// The scheme the lot was decided under, when there is one.
     pub scheme: Option<&'a twistlot_sampling::Scheme>,
-    /// Files of the shift that were not read.
-    pub rejected: &'a [RejectedFile],
+    /// Unreadable files of the shift whose lot could not be told (listed in the shift summary).
+    pub unassigned_rejected: usize,
 }
 
 /// A destination for a shift's results; every method has a default that does nothing,

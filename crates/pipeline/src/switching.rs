@@ -3,8 +3,9 @@
 //!
 //! The record is a JSON Lines file, one entry per decided lot (and one per resumption
 //! after discontinuation). A part's [`SwitchingState`] is never stored; it is replayed
-//! from the entries, so the file stays readable and a re-run of a shift replaces that
-//! shift's own entries instead of counting its lots twice.
+//! from the entries, so the file stays readable. Entries are keyed by lot: a lot decided
+//! again replaces its entry in place, whichever shift folder it was run from, so no lot
+//! is ever counted twice.
 
 use crate::open::OpenPlant;
 use crate::plugins::Schemes;
@@ -179,16 +180,24 @@ impl SwitchingRecord {
         &self.entries
     }
 
-    /// Replays `part`'s entries that precede `shift`'s own (all of them when the shift has none).
+    /// Replays `part`'s entries that precede the first entry of any of `lots` (all of them
+    /// when none of the lots is recorded yet): where the part stood before those lots.
     pub fn standing_before(
         &self,
         part: &str,
-        shift: &str,
+        lots: &[String],
         rules: &SwitchingRules,
         conditions: &Conditions,
     ) -> PartStanding {
-        let end = self.entries.iter().position(|e| e.shift == shift).unwrap_or(self.entries.len());
+        let end = self.first_of(lots).unwrap_or(self.entries.len());
         replay(&self.entries[..end], part, rules, conditions)
+    }
+
+    /// Index of the first lot entry of any of `lots`.
+    fn first_of(&self, lots: &[String]) -> Option<usize> {
+        self.entries
+            .iter()
+            .position(|e| e.kind != EntryKind::Resume && e.lot.as_ref().is_some_and(|l| lots.contains(l)))
     }
 
     /// Replays every entry of `part`: where it stands now.
@@ -196,13 +205,16 @@ impl SwitchingRecord {
         replay(&self.entries, part, rules, conditions)
     }
 
-    /// Replaces `shift`'s lot entries with `entries`, keeping the shift's place in the record.
-    /// Resumptions recorded under the shift stay.
-    pub fn replace_shift(&mut self, shift: &str, entries: Vec<SwitchingEntry>) {
-        let own = |e: &SwitchingEntry| e.shift == shift && e.kind != EntryKind::Resume;
-        // Nothing before the shift's first entry is removed, so that index stays valid.
-        let at = self.entries.iter().position(own).unwrap_or(self.entries.len());
-        self.entries.retain(|e| !own(e));
+    /// Puts `entries` in the record keyed by lot: every earlier entry of one of their lots
+    /// is removed, whichever shift folder recorded it, and the new entries take the place
+    /// of the first one removed (the end of the record when none of the lots was recorded).
+    /// Resumptions stay where they are.
+    pub fn replace_lots(&mut self, entries: Vec<SwitchingEntry>) {
+        let lots: Vec<String> = entries.iter().filter_map(|e| e.lot.clone()).collect();
+        // Nothing before the first replaced entry is removed, so that index stays valid.
+        let at = self.first_of(&lots).unwrap_or(self.entries.len());
+        self.entries
+            .retain(|e| e.kind == EntryKind::Resume || !e.lot.as_ref().is_some_and(|l| lots.contains(l)));
         self.entries.splice(at..at, entries);
     }
 
@@ -488,8 +500,9 @@ pub fn resume_part(
 }
 
 /// The switching record as a shift sink: each decided lot becomes an entry; when the
-/// shift ends the shift's entries replace its earlier ones and the record is saved. It
-/// is the last sink fed, so the record only ever holds lots whose reports exist.
+/// shift ends the entries replace those of the same lots (from any earlier run) and the
+/// record is saved. It is the last sink fed, so the record only ever holds lots whose
+/// reports exist.
 pub struct SwitchingRecordWriter {
     record: SwitchingRecord,
     shift: String,
@@ -517,7 +530,7 @@ impl ShiftSink for SwitchingRecordWriter {
     }
 
     fn end(&mut self, _shift: &ShiftRecord) -> Result<(), SinkError> {
-        self.record.replace_shift(&self.shift, std::mem::take(&mut self.entries));
+        self.record.replace_lots(std::mem::take(&mut self.entries));
         self.record.save().map_err(SinkError::Switching)
     }
 }
@@ -562,9 +575,9 @@ mod tests {
             lot("P", "s2", "c", EntryKind::Accept),
             lot("P", "s2", "d", EntryKind::Reject),
         ]);
-        let before_s2 = r.standing_before("P", "s2", &rules(), &STEADY);
+        let before_s2 = r.standing_before("P", &["c".into(), "d".into()], &rules(), &STEADY);
         assert_eq!(before_s2.state.severity, Severity::Normal);
-        let after = r.standing_before("P", "s3", &rules(), &STEADY);
+        let after = r.standing_before("P", &["e".into()], &rules(), &STEADY);
         assert_eq!(after.state.severity, Severity::Tightened);
         assert_eq!(after.last_transition, Some((Transition::ToTightened, "d".to_string())));
         assert!(describe_standing(&after, &rules()).contains("since lot d"));
@@ -590,16 +603,13 @@ mod tests {
     }
 
     #[test]
-    fn rerunning_a_shift_replaces_its_own_entries_in_place() {
+    fn deciding_lots_again_replaces_their_entries_in_place() {
         let mut r = record(vec![
             lot("P", "s1", "a", EntryKind::Accept),
             lot("P", "s2", "b", EntryKind::Reject),
             lot("P", "s3", "c", EntryKind::Accept),
         ]);
-        r.replace_shift(
-            "s2",
-            vec![lot("P", "s2", "b", EntryKind::Accept), lot("P", "s2", "b2", EntryKind::Hold)],
-        );
+        r.replace_lots(vec![lot("P", "s2", "b", EntryKind::Accept), lot("P", "s2", "b2", EntryKind::Hold)]);
         let lots: Vec<_> = r.entries().iter().map(|e| (e.lot.clone().unwrap(), e.kind)).collect();
         assert_eq!(
             lots,
@@ -610,8 +620,29 @@ mod tests {
                 ("c".to_string(), EntryKind::Accept),
             ]
         );
-        r.replace_shift("s4", vec![lot("P", "s4", "d", EntryKind::Reject)]);
+        r.replace_lots(vec![lot("P", "s4", "d", EntryKind::Reject)]);
         assert_eq!(r.entries().last().and_then(|e| e.lot.as_deref()), Some("d"));
+    }
+
+    #[test]
+    fn the_same_lot_run_from_another_folder_is_not_counted_twice() {
+        let mut r = record(vec![
+            lot("P", "2026-12-01-late", "a", EntryKind::Reject),
+            lot("P", "2026-12-01-late", "b", EntryKind::Accept),
+        ]);
+        // The same two lots, copied to a folder of another name and decided again.
+        let again = vec![
+            lot("P", "copy-of-late", "a", EntryKind::Reject),
+            lot("P", "copy-of-late", "b", EntryKind::Accept),
+        ];
+        let before = r.standing_before("P", &["a".into(), "b".into()], &rules(), &STEADY);
+        assert_eq!(before.state.lots_on_severity, 0, "judged from before its own lots, wherever it runs");
+        r.replace_lots(again);
+        assert_eq!(r.entries().len(), 2);
+        assert!(r.entries().iter().all(|e| e.shift == "copy-of-late"));
+        let now = r.standing_now("P", &rules(), &STEADY);
+        // Common practice, no published source: two lots, one not accepted, each counted once.
+        assert_eq!((now.state.lots_on_severity, now.state.rejected_on_severity), (2, 1));
     }
 
     #[test]

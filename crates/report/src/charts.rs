@@ -1,4 +1,4 @@
-//! Report charts as inline SVG.
+//! Report charts as inline SVG, in the project's own look.
 //!
 //! Each function returns an [`SvgMarkup`]: a complete `<svg>` element with width,
 //! height and viewBox and no XML prolog, ready to sit inside an HTML page. Text is
@@ -6,9 +6,21 @@
 //! `sans-serif` draws it. Bad points (NaN, infinities) are left out rather than
 //! failing the report, and a chart with nothing to show becomes a small "no data" box.
 //!
+//! The charts show what the lot's decision rests on, not a general statistics layout:
+//! - [`strip_chart_svg`]: every part's value of one characteristic as a dot, stacked
+//!   where values coincide, over the drawing's tolerance as a shaded band whose edges are
+//!   labelled as the drawing's limits; a normal model is drawn only when the caller says
+//!   normality was not rejected.
+//! - [`curves_svg`]: the torque–angle curves, failed and invalid parts in their own
+//!   colours and line styles with their serials in a margin column (labels never
+//!   overlap), the torque limits at the test angles and the free-angle limits; when not
+//!   every curve is drawn the caption says how many were.
+//! - [`oc_curve_svg`]: the deciding plan's operating characteristic over a range the
+//!   caller chooses from the plan, with the AQL and the lot's observed percent defective.
+//!
 //! Colours come from the Okabe–Ito set, chosen because it stays distinguishable under
-//! the common colour-vision deficiencies; every distinction that matters (limits,
-//! flagged curves) is also made by line style or width, not by colour alone.
+//! the common colour-vision deficiencies; every distinction that matters (pass, fail,
+//! invalid, limits) is also made by shape, line style or width, not by colour alone.
 
 use crate::ReportError;
 use plotters::coord::types::RangedCoordf64;
@@ -17,12 +29,17 @@ use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 use serde::{Deserialize, Deserializer, Serialize, Serializer};
 use std::fmt;
+use twistlot_model::Verdict;
 
 pub(crate) const INK: RGBColor = RGBColor(0x22, 0x22, 0x22);
 pub(crate) const SKY: RGBColor = RGBColor(0x56, 0xB4, 0xE9);
 pub(crate) const BLUE: RGBColor = RGBColor(0x00, 0x72, 0xB2);
 pub(crate) const GREEN: RGBColor = RGBColor(0x00, 0x9E, 0x73);
+const ORANGE: RGBColor = RGBColor(0xE6, 0x9F, 0x00);
 pub(crate) const VERMILLION: RGBColor = RGBColor(0xD5, 0x5E, 0x00);
+const PURPLE: RGBColor = RGBColor(0xCC, 0x79, 0xA7);
+/// The drawing's tolerance band: a pale tint of the limit colour.
+const BAND: RGBColor = RGBColor(0xDF, 0xF2, 0xEA);
 pub(crate) const GRID_LIGHT: RGBColor = RGBColor(0xEE, 0xEE, 0xEE);
 pub(crate) const GRID_BOLD: RGBColor = RGBColor(0xD4, 0xD4, 0xD4);
 pub(crate) const GUIDE: RGBColor = RGBColor(0x88, 0x88, 0x88);
@@ -33,14 +50,20 @@ pub(crate) const CAPTION_PX: f64 = 18.0;
 pub(crate) const LABEL_PX: f64 = 15.0;
 pub(crate) const SMALL_PX: f64 = 13.5;
 
-/// Pixel size of the histogram and OC charts.
+/// Pixel size of the OC chart.
 const WIDE: (u32, u32) = (760, 380);
 /// Pixel size of the curve overlay, taller because curves need vertical resolution.
-const TALL: (u32, u32) = (760, 440);
-/// Points kept per curve: more adds file size without visible detail at this width.
+const TALL: (u32, u32) = (760, 460);
+/// Width of a strip chart; its height grows when a normal model is drawn.
+const STRIP_WIDTH: u32 = 760;
+/// Points kept per flagged curve: more adds file size without visible detail at this width.
 const MAX_POINTS_PER_CURVE: usize = 600;
-/// Flagged curves labelled by name; beyond this the labels would only pile up.
-const MAX_CURVE_LABELS: usize = 8;
+/// Points kept per passing curve: they are drawn thin and many, so fewer points suffice.
+const MAX_POINTS_PER_PASSING_CURVE: usize = 160;
+/// Flagged curves named in the margin; beyond this a "+N more" line points to the data sheet.
+const MAX_CURVE_LABELS: usize = 16;
+/// Width of the margin column that holds the curve labels, px.
+const LABEL_COLUMN_PX: u32 = 150;
 
 /// SVG markup for embedding in a report.
 ///
@@ -54,7 +77,7 @@ pub struct SvgMarkup {
 }
 
 impl SvgMarkup {
-    pub(crate) fn generated(markup: String) -> Self {
+    fn generated(markup: String) -> Self {
         SvgMarkup { markup, generated: true }
     }
 
@@ -114,17 +137,197 @@ impl<'de> Deserialize<'de> for SvgMarkup {
     }
 }
 
+/// One part's value of a characteristic, for a strip chart.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct StripPoint {
+    /// The measured value.
+    pub value: f64,
+    /// The verdict on this characteristic: pass, fail (outside the drawing) or invalid.
+    pub verdict: Verdict,
+}
+
+/// The individual values of one characteristic against the drawing's limits.
+#[derive(Debug, Clone, Copy)]
+pub struct StripChart<'a> {
+    /// Characteristic name, e.g. `rate`, `torque@60`, `free_angle`.
+    pub characteristic: &'a str,
+    /// Unit label, e.g. `N·mm/°`.
+    pub unit: &'a str,
+    /// One point per part.
+    pub points: &'a [StripPoint],
+    /// The drawing's lower limit.
+    pub lower: Option<f64>,
+    /// The drawing's upper limit.
+    pub upper: Option<f64>,
+    /// The drawing's nominal.
+    pub nominal: Option<f64>,
+    /// Mean and standard deviation of a normal model; give it only when the lot's values
+    /// passed the normality test, because a drawn curve reads as a claim about the lot.
+    pub normal_fit: Option<(f64, f64)>,
+}
+
+/// Every part's value as a dot over the drawing's tolerance band (see the module doc).
+pub fn strip_chart_svg(strip: &StripChart<'_>) -> Result<SvgMarkup, ReportError> {
+    const CHART: &str = "individual values";
+    let points: Vec<StripPoint> = strip.points.iter().copied().filter(|p| p.value.is_finite()).collect();
+    if points.is_empty() {
+        return Ok(no_data(CHART));
+    }
+    let lower = strip.lower.filter(|v| v.is_finite());
+    let upper = strip.upper.filter(|v| v.is_finite());
+    let nominal = strip.nominal.filter(|v| v.is_finite());
+    let fit = strip.normal_fit.filter(|(mean, sd)| mean.is_finite() && sd.is_finite() && *sd > 0.0);
+    let values = points.iter().map(|p| p.value);
+    let Some((x_lo, x_hi)) = usable(padded(span_of(values.chain(lower).chain(upper).chain(nominal)), 0.08))
+    else {
+        return Ok(no_data(CHART));
+    };
+    let count = |verdict: Verdict| points.iter().filter(|p| p.verdict == verdict).count();
+    let (within, outside, invalid) = (count(Verdict::Pass), count(Verdict::Fail), count(Verdict::Invalid));
+    let height = if fit.is_some() { 250 } else { 200 };
+    let x_decimals = tick_decimals(x_hi - x_lo);
+    // Caption line, then three rows for limit and nominal labels above the plot.
+    let top_margin = 76;
+
+    draw(CHART, (STRIP_WIDTH, height), |root| {
+        let mut chart = ChartBuilder::on(root)
+            .margin_left(14)
+            .margin_right(28)
+            .margin_top(top_margin)
+            .margin_bottom(6)
+            .x_label_area_size(42)
+            .y_label_area_size(8)
+            .build_cartesian_2d(x_lo..x_hi, 0.0..1.0)?;
+        chart
+            .configure_mesh()
+            .disable_y_mesh()
+            .disable_y_axis()
+            .y_labels(0)
+            .light_line_style(GRID_LIGHT)
+            .bold_line_style(GRID_BOLD)
+            .max_light_lines(1)
+            .axis_style(INK)
+            .label_style((FONT, LABEL_PX).into_font().color(&INK))
+            .x_desc(format!("{} ({})", strip.characteristic, strip.unit))
+            .x_label_formatter(&|v| format!("{:.*}", x_decimals, v))
+            .draw()?;
+
+        if lower.is_some() || upper.is_some() {
+            let band = [(lower.unwrap_or(x_lo), 0.0), (upper.unwrap_or(x_hi), 1.0)];
+            chart.draw_series(std::iter::once(Rectangle::new(band, BAND.filled())))?;
+            for edge in [lower, upper].into_iter().flatten() {
+                chart.draw_series(LineSeries::new([(edge, 0.0), (edge, 1.0)], GREEN.stroke_width(2)))?;
+            }
+        }
+        if let Some(x) = nominal {
+            chart.draw_series(LineSeries::new([(x, 0.0), (x, 1.0)], INK.mix(0.5).stroke_width(1)))?;
+        }
+        // Dots stacked in pixel columns one dot wide, so coinciding values stay visible.
+        let (x_pixels, y_pixels) = chart.plotting_area().get_pixel_range();
+        let plot_w = f64::from((x_pixels.end - x_pixels.start).max(1));
+        let plot_h = f64::from((y_pixels.end - y_pixels.start).max(1));
+        let diameter = 9.0;
+        let mut sorted = points.clone();
+        sorted.sort_by(|a, b| a.value.total_cmp(&b.value));
+        let column_of = |v: f64| ((v - x_lo) / (x_hi - x_lo) * plot_w / diameter).floor() as i64;
+        let mut heights: std::collections::BTreeMap<i64, usize> = std::collections::BTreeMap::new();
+        for p in &sorted {
+            *heights.entry(column_of(p.value)).or_default() += 1;
+        }
+        let tallest = heights.values().copied().max().unwrap_or(1) as f64;
+        // Room for the model's peak too, so the dots and the model share one scale.
+        let column_width = diameter * (x_hi - x_lo) / plot_w;
+        let expected_at =
+            |x: f64, (mean, sd): (f64, f64)| points.len() as f64 * column_width * normal_pdf(x, mean, sd);
+        let model_peak = fit.map_or(0.0, |f| expected_at(f.0, f));
+        let step = diameter.min((plot_h - 6.0) / tallest.max(model_peak)).max(1.0);
+        if let Some(model) = fit {
+            // The model as dots it expects per column: a dot plot is a histogram whose bins
+            // are one dot wide, so the curve and the stacks are read on one scale.
+            // Drawn where it expects at least a fiftieth of a dot, not as a line along the axis.
+            let steps = 200;
+            let curve = (0..=steps)
+                .map(|i| x_lo + (x_hi - x_lo) * i as f64 / steps as f64)
+                .filter(|x| expected_at(*x, model) >= 0.02)
+                .map(|x| (x, ((3.0 + expected_at(x, model) * step) / plot_h).min(1.0)));
+            chart.draw_series(LineSeries::new(curve, ORANGE.stroke_width(2)))?;
+        }
+        heights.clear();
+        for p in &sorted {
+            let level = heights.entry(column_of(p.value)).or_default();
+            let y = (3.0 + (*level as f64 + 0.5) * step) / plot_h;
+            *level += 1;
+            let at = (p.value, y);
+            match p.verdict {
+                Verdict::Pass => {
+                    chart.draw_series(std::iter::once(Circle::new(at, 4, BLUE.filled())))?;
+                }
+                Verdict::Fail => {
+                    chart.draw_series(std::iter::once(TriangleMarker::new(at, 6, VERMILLION.filled())))?;
+                }
+                Verdict::Invalid => {
+                    chart.draw_series(std::iter::once(Circle::new(at, 4, PURPLE.stroke_width(2))))?;
+                }
+            }
+        }
+
+        // Labels of the limits and the nominal, in rows above the plot that never overlap.
+        let plot_top = y_pixels.start;
+        let mut rows =
+            LabelRows::new(&[plot_top - 4, plot_top - 20, plot_top - 36], (2, STRIP_WIDTH as i32 - 2));
+        let x_px = |x: f64| chart.backend_coord(&(x, 0.0)).0;
+        let with_unit = |x: f64| match strip.unit {
+            "°" => format!("{}°", sig(x)),
+            "" => sig(x),
+            unit => format!("{} {unit}", sig(x)),
+        };
+        let mut labels: Vec<(String, i32, HPos, RGBColor)> = Vec::new();
+        if let Some(x) = lower {
+            labels.push((format!("drawing min {}", with_unit(x)), x_px(x), HPos::Left, GREEN));
+        }
+        if let Some(x) = upper {
+            labels.push((format!("drawing max {}", with_unit(x)), x_px(x), HPos::Right, GREEN));
+        }
+        if let Some(x) = nominal {
+            labels.push((format!("nominal {}", sig(x)), x_px(x), HPos::Center, INK));
+        }
+        for (text, x, h_pos, colour) in labels {
+            let (left, y) = rows.place(x, h_pos, text_width_px(&text, SMALL_PX));
+            let style = (FONT, SMALL_PX).into_font().color(&colour).pos(Pos::new(HPos::Left, VPos::Bottom));
+            root.draw(&Text::new(text, (left, y), style))?;
+        }
+
+        let caption = format!("{}: {} parts", strip.characteristic, points.len());
+        let caption_style = (FONT, CAPTION_PX).into_font().color(&INK).pos(Pos::new(HPos::Left, VPos::Top));
+        root.draw(&Text::new(caption, (14, 6), caption_style))?;
+        let mut legend = Legend::right_aligned(STRIP_WIDTH as i32 - 14, 16);
+        if let Some((mean, sd)) = fit {
+            legend.item(
+                root,
+                &format!("normal model, mean {} sd {}", sig(mean), sig(sd)),
+                Swatch::Line(ORANGE),
+            )?;
+        }
+        if invalid > 0 {
+            legend.item(root, &format!("invalid ({invalid})"), Swatch::Ring(PURPLE))?;
+        }
+        legend.item(root, &format!("outside drawing ({outside})"), Swatch::Triangle(VERMILLION))?;
+        legend.item(root, &format!("within drawing ({within})"), Swatch::Dot(BLUE))?;
+        Ok(())
+    })
+}
+
 /// One torque-vs-angle curve to overlay.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CurveLine {
-    /// Shown beside flagged curves (usually the serial).
+    /// Shown beside failed and invalid curves (usually the serial).
     pub label: String,
     /// Angles in degrees.
     pub angle_deg: Vec<f64>,
     /// Torques in N·mm, same length as `angle_deg`.
     pub torque_nmm: Vec<f64>,
-    /// Drawn on top, thicker and in the warning colour.
-    pub flagged: bool,
+    /// The test's verdict: failed and invalid curves get their own colour, style and label.
+    pub verdict: Verdict,
 }
 
 /// A torque tolerance at one angle, drawn as a vertical bar.
@@ -138,107 +341,33 @@ pub struct ToleranceWindow {
     pub upper_nmm: Option<f64>,
 }
 
-/// Histogram of spring rates with LSL/USL, nominal and the normal density scaled to counts.
-pub fn rate_histogram_svg(
-    values: &[f64],
-    lower: Option<f64>,
-    upper: Option<f64>,
-    nominal: Option<f64>,
-    normal_fit: Option<(f64, f64)>,
-    unit_label: &str,
-) -> Result<SvgMarkup, ReportError> {
-    const CHART: &str = "rate histogram";
-    let data: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
-    let Some(bins) = Bins::of(&data) else {
-        return Ok(no_data(CHART));
-    };
-    let lower = lower.filter(|v| v.is_finite());
-    let upper = upper.filter(|v| v.is_finite());
-    let nominal = nominal.filter(|v| v.is_finite());
-    let fit = normal_fit.filter(|(mean, sd)| mean.is_finite() && sd.is_finite() && *sd > 0.0);
-
-    let Some((x_lo, x_hi)) = usable(padded(
-        span_of([bins.start, bins.end()].into_iter().chain(lower).chain(upper).chain(nominal)),
-        0.06,
-    )) else {
-        return Ok(no_data(CHART));
-    };
-    let n = data.len() as f64;
-    let max_count = bins.counts.iter().copied().max().unwrap_or(0) as f64;
-    let peak_of = |(mean, sd): (f64, f64)| expected_count(mean, n, bins.width, mean, sd);
-    // Headroom above the tallest element keeps the limit labels clear of the bars.
-    let headroom = 1.25;
-    // A vanishing sd makes the peak overflow, with or without the headroom; such a fit has
-    // nothing to show, and an infinite axis would stall plotters' tick search.
-    let fit = fit.filter(|f| usable((0.0, peak_of(*f) * headroom)).is_some());
-    let fit_peak = fit.map_or(0.0, peak_of);
-    let y_hi = (max_count.max(fit_peak) * headroom).max(1.0);
-    if usable((0.0, y_hi)).is_none() {
-        return Ok(no_data(CHART));
-    }
-
-    let mut caption = format!("{} values", data.len());
-    if let Some((mean, sd)) = fit {
-        caption.push_str(&format!(", normal fit: mean {}, sd {}", sig(mean), sig(sd)));
-    }
-    let x_decimals = tick_decimals(x_hi - x_lo);
-
-    draw(CHART, WIDE, |root| {
-        let mut chart = ChartBuilder::on(root)
-            .margin(14)
-            .caption(caption, (FONT, CAPTION_PX).into_font().color(&INK))
-            .x_label_area_size(44)
-            .y_label_area_size(52)
-            .build_cartesian_2d(x_lo..x_hi, 0.0..y_hi)?;
-        draw_mesh(&mut chart, unit_label, "parts", &|v| format!("{:.*}", x_decimals, v), &|v| {
-            integer_tick(*v)
-        })?;
-
-        chart.draw_series(bins.counts.iter().enumerate().filter(|(_, c)| **c > 0).flat_map(|(i, c)| {
-            let x0 = bins.start + i as f64 * bins.width;
-            let corners = [(x0, 0.0), (x0 + bins.width, *c as f64)];
-            [Rectangle::new(corners, SKY.mix(0.75).filled()), Rectangle::new(corners, BLUE.stroke_width(1))]
-        }))?;
-
-        if let Some((mean, sd)) = fit {
-            let steps = 160;
-            let density = (0..=steps).map(|i| {
-                let x = x_lo + (x_hi - x_lo) * i as f64 / steps as f64;
-                (x, expected_count(x, n, bins.width, mean, sd))
-            });
-            chart.draw_series(LineSeries::new(density, BLUE.stroke_width(2)))?;
-        }
-
-        let top = y_hi * 0.985;
-        for (value, name, dashed, label_y) in [
-            (lower, "LSL", true, top),
-            (upper, "USL", true, top),
-            // Lower than the limit labels so that a nominal close to a limit stays readable.
-            (nominal, "nominal", false, y_hi * 0.90),
-        ] {
-            let Some(x) = value else { continue };
-            let line = vec![(x, 0.0), (x, y_hi)];
-            if dashed {
-                chart.draw_series(DashedLineSeries::new(line, 8, 5, VERMILLION.stroke_width(2)))?;
-            } else {
-                chart.draw_series(LineSeries::new(line, GREEN.stroke_width(2)))?;
-            }
-            let colour = if dashed { VERMILLION } else { GREEN };
-            let style = (FONT, LABEL_PX).into_font().color(&colour).pos(Pos::new(HPos::Center, VPos::Top));
-            chart.draw_series(std::iter::once(Text::new(
-                format!("{name} {}", sig(x)),
-                (x, label_y),
-                style,
-            )))?;
-        }
-        Ok(())
-    })
+/// The drawing's free-angle limits, drawn as a bar along zero torque.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct FreeAngleLimits {
+    /// Smallest free angle allowed, degrees.
+    pub lower_deg: Option<f64>,
+    /// Largest free angle allowed, degrees.
+    pub upper_deg: Option<f64>,
 }
 
-/// Overlaid torque-vs-angle curves with each tolerance window as a vertical bar.
-pub fn curves_svg(curves: &[CurveLine], windows: &[ToleranceWindow]) -> Result<SvgMarkup, ReportError> {
+/// What the curve overlay shows.
+#[derive(Debug, Clone, Copy)]
+pub struct CurveChart<'a> {
+    /// The curves kept for the chart, failed and invalid ones first.
+    pub curves: &'a [CurveLine],
+    /// Torque limits at the test angles.
+    pub windows: &'a [ToleranceWindow],
+    /// Free-angle limits, when the drawing gives them.
+    pub free_angle: Option<FreeAngleLimits>,
+    /// Tests of the lot that had a curve; when more than are drawn, the caption says so.
+    pub curves_in_lot: usize,
+}
+
+/// The lot's torque–angle curves with the drawing's limits (see the module doc).
+pub fn curves_svg(overlay: &CurveChart<'_>) -> Result<SvgMarkup, ReportError> {
     const CHART: &str = "torque curves";
-    let lines: Vec<(&CurveLine, Vec<(f64, f64)>)> = curves
+    let lines: Vec<(&CurveLine, Vec<(f64, f64)>)> = overlay
+        .curves
         .iter()
         .map(|c| {
             let points: Vec<(f64, f64)> = c
@@ -248,14 +377,17 @@ pub fn curves_svg(curves: &[CurveLine], windows: &[ToleranceWindow]) -> Result<S
                 .map(|(a, t)| (*a, *t))
                 .filter(|(a, t)| a.is_finite() && t.is_finite())
                 .collect();
-            (c, thin(&points, MAX_POINTS_PER_CURVE))
+            let max =
+                if c.verdict == Verdict::Pass { MAX_POINTS_PER_PASSING_CURVE } else { MAX_POINTS_PER_CURVE };
+            (c, thin(&points, max))
         })
         .filter(|(_, points)| points.len() >= 2)
         .collect();
     if lines.is_empty() {
         return Ok(no_data(CHART));
     }
-    let windows: Vec<ToleranceWindow> = windows
+    let windows: Vec<ToleranceWindow> = overlay
+        .windows
         .iter()
         .filter(|w| w.angle_deg.is_finite())
         .map(|w| ToleranceWindow {
@@ -265,15 +397,24 @@ pub fn curves_svg(curves: &[CurveLine], windows: &[ToleranceWindow]) -> Result<S
         })
         .filter(|w| w.lower_nmm.is_some() || w.upper_nmm.is_some())
         .collect();
+    let free = overlay
+        .free_angle
+        .map(|f| (f.lower_deg.filter(|v| v.is_finite()), f.upper_deg.filter(|v| v.is_finite())))
+        .filter(|(lo, hi)| lo.is_some() || hi.is_some());
 
     let all_points = || lines.iter().flat_map(|(_, p)| p.iter());
-    let x_range =
-        usable(padded(span_of(all_points().map(|p| p.0).chain(windows.iter().map(|w| w.angle_deg))), 0.04));
+    let free_ends = free.iter().flat_map(|(lo, hi)| lo.iter().chain(hi.iter()).copied());
+    let x_range = usable(padded(
+        span_of(all_points().map(|p| p.0).chain(windows.iter().map(|w| w.angle_deg)).chain(free_ends)),
+        0.04,
+    ));
+    let zero = free.map(|_| 0.0);
     let y_range = usable(padded(
         span_of(
             all_points()
                 .map(|p| p.1)
-                .chain(windows.iter().flat_map(|w| w.lower_nmm.into_iter().chain(w.upper_nmm))),
+                .chain(windows.iter().flat_map(|w| w.lower_nmm.into_iter().chain(w.upper_nmm)))
+                .chain(zero),
         ),
         0.08,
     ));
@@ -283,16 +424,21 @@ pub fn curves_svg(curves: &[CurveLine], windows: &[ToleranceWindow]) -> Result<S
     let cap_half_width = (x_hi - x_lo) * 0.012;
     let x_decimals = tick_decimals(x_hi - x_lo);
     let y_decimals = tick_decimals(y_hi - y_lo);
-    let flagged_count = lines.iter().filter(|(c, _)| c.flagged).count();
-    let plain_count = lines.len() - flagged_count;
+    let count = |verdict: Verdict| lines.iter().filter(|(c, _)| c.verdict == verdict).count();
+    let (passed, failed, invalid) = (count(Verdict::Pass), count(Verdict::Fail), count(Verdict::Invalid));
+    let drawn = lines.len();
+    let in_lot = overlay.curves_in_lot.max(drawn);
+    let caption = if drawn < in_lot {
+        format!("{drawn} of {in_lot} curves drawn (failed and invalid first)")
+    } else {
+        format!("all {drawn} curves")
+    };
 
     draw(CHART, TALL, |root| {
         let mut chart = ChartBuilder::on(root)
             .margin(14)
-            .caption(
-                format!("{} curves, {} flagged", lines.len(), flagged_count),
-                (FONT, CAPTION_PX).into_font().color(&INK),
-            )
+            .margin_top(40)
+            .margin_right(LABEL_COLUMN_PX)
             .x_label_area_size(44)
             .y_label_area_size(64)
             .build_cartesian_2d(x_lo..x_hi, y_lo..y_hi)?;
@@ -300,31 +446,36 @@ pub fn curves_svg(curves: &[CurveLine], windows: &[ToleranceWindow]) -> Result<S
             format!("{:.*}", y_decimals, v)
         })?;
 
-        let plain_style = BLUE.mix(0.45).stroke_width(1);
-        let flagged_style = VERMILLION.stroke_width(2);
+        let passing_style = BLUE.mix(0.4).stroke_width(1);
+        let failed_style = VERMILLION.stroke_width(2);
+        let invalid_style = PURPLE.stroke_width(2);
         let window_style = INK.stroke_width(3);
+        let free_style = GREEN.mix(0.85).stroke_width(6);
 
-        // Plain curves first so flagged ones are drawn over them.
-        for (i, (_, points)) in lines.iter().filter(|(c, _)| !c.flagged).enumerate() {
-            let series = chart.draw_series(LineSeries::new(points.iter().copied(), plain_style))?;
+        // Passing curves first so that flagged ones are drawn over them.
+        for (i, (_, points)) in lines.iter().filter(|(c, _)| c.verdict == Verdict::Pass).enumerate() {
+            let series = chart.draw_series(LineSeries::new(points.iter().copied(), passing_style))?;
             if i == 0 {
                 series
-                    .label(format!("not flagged ({plain_count})"))
-                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], plain_style));
+                    .label(format!("within the drawing ({passed})"))
+                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], passing_style));
             }
         }
-        for (i, (curve, points)) in lines.iter().filter(|(c, _)| c.flagged).enumerate() {
-            let series = chart.draw_series(LineSeries::new(points.iter().copied(), flagged_style))?;
+        for (i, (_, points)) in lines.iter().filter(|(c, _)| c.verdict == Verdict::Invalid).enumerate() {
+            let series =
+                chart.draw_series(DashedLineSeries::new(points.iter().copied(), 7, 4, invalid_style))?;
             if i == 0 {
                 series
-                    .label(format!("flagged ({flagged_count})"))
-                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], flagged_style));
+                    .label(format!("invalid, dashed ({invalid})"))
+                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], invalid_style));
             }
-            if i < MAX_CURVE_LABELS && !curve.label.is_empty() {
-                let peak = points.iter().copied().fold(points[0], |a, b| if b.1 > a.1 { b } else { a });
-                let style =
-                    (FONT, SMALL_PX).into_font().color(&VERMILLION).pos(Pos::new(HPos::Right, VPos::Bottom));
-                chart.draw_series(std::iter::once(Text::new(curve.label.clone(), peak, style)))?;
+        }
+        for (i, (_, points)) in lines.iter().filter(|(c, _)| c.verdict == Verdict::Fail).enumerate() {
+            let series = chart.draw_series(LineSeries::new(points.iter().copied(), failed_style))?;
+            if i == 0 {
+                series
+                    .label(format!("failed ({failed})"))
+                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], failed_style));
             }
         }
 
@@ -336,7 +487,7 @@ pub fn curves_svg(curves: &[CurveLine], windows: &[ToleranceWindow]) -> Result<S
             let series = chart.draw_series(LineSeries::new([(a, bottom), (a, top)], window_style))?;
             if i == 0 {
                 series
-                    .label("torque tolerance")
+                    .label("drawing's torque limits")
                     .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], window_style));
             }
             for cap in [w.lower_nmm, w.upper_nmm].into_iter().flatten() {
@@ -345,52 +496,120 @@ pub fn curves_svg(curves: &[CurveLine], windows: &[ToleranceWindow]) -> Result<S
                     INK.stroke_width(2),
                 ))?;
             }
-            let style = (FONT, SMALL_PX).into_font().color(&INK).pos(Pos::new(HPos::Left, VPos::Center));
-            chart.draw_series(std::iter::once(Text::new(
-                format!("{}°", sig(a)),
-                (a + cap_half_width * 1.5, top),
-                style,
-            )))?;
+            let style = (FONT, SMALL_PX).into_font().color(&INK).pos(Pos::new(HPos::Center, VPos::Bottom));
+            chart.draw_series(std::iter::once(Text::new(format!("@{}°", sig(a)), (a, top), style)))?;
+        }
+
+        if let Some((lo, hi)) = free {
+            let (start, end) = (lo.unwrap_or(x_lo), hi.unwrap_or(x_hi));
+            let series = chart.draw_series(LineSeries::new([(start, 0.0), (end, 0.0)], free_style))?;
+            series
+                .label("drawing's free-angle limits (at zero torque)")
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], free_style));
+            let tick = (y_hi - y_lo) * 0.025;
+            for edge in [lo, hi].into_iter().flatten() {
+                chart.draw_series(LineSeries::new([(edge, -tick), (edge, tick)], GREEN.stroke_width(2)))?;
+            }
         }
 
         chart
             .configure_series_labels()
             .position(SeriesLabelPosition::UpperLeft)
-            .background_style(WHITE.mix(0.9))
+            .background_style(WHITE.mix(0.92))
             .border_style(GRID_BOLD)
-            .label_font((FONT, LABEL_PX).into_font().color(&INK))
+            .label_font((FONT, SMALL_PX).into_font().color(&INK))
             .draw()?;
+
+        // Serials of flagged curves in the margin column, spread so that none overlap,
+        // each tied to its curve's highest point by a thin leader.
+        let (x_pixels, y_pixels) = chart.plotting_area().get_pixel_range();
+        let flagged: Vec<(&CurveLine, (f64, f64))> = lines
+            .iter()
+            .filter(|(c, _)| c.verdict != Verdict::Pass && !c.label.is_empty())
+            .map(|(c, points)| {
+                let peak = points.iter().copied().fold(points[0], |a, b| if b.1 > a.1 { b } else { a });
+                (*c, peak)
+            })
+            .collect();
+        let shown = flagged.len().min(MAX_CURVE_LABELS);
+        let mut anchors: Vec<(i32, i32, &CurveLine)> = flagged[..shown]
+            .iter()
+            .map(|(c, peak)| {
+                let (x, y) = chart.backend_coord(peak);
+                (x, y, *c)
+            })
+            .collect();
+        anchors.sort_by_key(|(_, y, _)| *y);
+        let wanted: Vec<i32> = anchors.iter().map(|(_, y, _)| *y).collect();
+        let bottom = y_pixels.end - if flagged.len() > shown { 18 } else { 0 };
+        let spread = spread_apart(&wanted, 15, y_pixels.start + 6, bottom - 6);
+        let label_x = x_pixels.end + 12;
+        for ((x, y, curve), label_y) in anchors.iter().zip(spread) {
+            let colour = if curve.verdict == Verdict::Fail { VERMILLION } else { PURPLE };
+            root.draw(&PathElement::new(
+                vec![(*x + 2, *y), (label_x - 3, label_y)],
+                colour.mix(0.7).stroke_width(1),
+            ))?;
+            let style = (FONT, SMALL_PX).into_font().color(&colour).pos(Pos::new(HPos::Left, VPos::Center));
+            root.draw(&Text::new(
+                clip_label(&curve.label, LABEL_COLUMN_PX - 16, SMALL_PX),
+                (label_x, label_y),
+                style,
+            ))?;
+        }
+        if flagged.len() > shown {
+            let style = (FONT, SMALL_PX).into_font().color(&INK).pos(Pos::new(HPos::Left, VPos::Center));
+            let more = format!("+{} more (data sheet)", flagged.len() - shown);
+            root.draw(&Text::new(more, (label_x, y_pixels.end - 8), style))?;
+        }
+
+        let caption_style = (FONT, CAPTION_PX).into_font().color(&INK).pos(Pos::new(HPos::Left, VPos::Top));
+        root.draw(&Text::new(caption, (14, 8), caption_style))?;
         Ok(())
     })
 }
 
-/// The plan's operating characteristic curve with the lot's observed point marked.
-///
-/// `points` are (percent defective, probability of acceptance) pairs.
-pub fn oc_curve_svg(
-    points: &[(f64, f64)],
-    lot_point: Option<(f64, f64)>,
-    label: &str,
-) -> Result<SvgMarkup, ReportError> {
+/// What the OC chart shows.
+#[derive(Debug, Clone, Copy)]
+pub struct OcChart<'a> {
+    /// (percent defective, probability of acceptance) along the plan's curve, over the
+    /// range the caller chose for the plan (e.g. up to where Pa falls below 5 %).
+    pub points: &'a [(f64, f64)],
+    /// The lot's observed percent defective and the plan's Pa there.
+    pub lot_point: Option<(f64, f64)>,
+    /// The plan's AQL, percent, when it has one.
+    pub aql_pct: Option<f64>,
+    /// The plan, in words, above the chart.
+    pub caption: &'a str,
+}
+
+/// The deciding plan's operating characteristic curve (see the module doc).
+pub fn oc_curve_svg(oc: &OcChart<'_>) -> Result<SvgMarkup, ReportError> {
     const CHART: &str = "OC curve";
     // Percent defective lies in 0..=100 and a probability in 0..=1; anything else is
     // not a point of an OC curve, and leaving it out keeps the axes meaningful.
     let on_chart = |(x, y): &(f64, f64)| (0.0..=100.0).contains(x) && (0.0..=1.0).contains(y);
-    let mut curve: Vec<(f64, f64)> = points.iter().copied().filter(on_chart).collect();
+    let mut curve: Vec<(f64, f64)> = oc.points.iter().copied().filter(on_chart).collect();
     if curve.is_empty() {
         return Ok(no_data(CHART));
     }
     curve.sort_by(|a, b| a.0.total_cmp(&b.0));
-    let lot_point = lot_point.filter(on_chart);
-    let x_max = curve.iter().map(|p| p.0).chain(lot_point.map(|p| p.0)).fold(0.0, f64::max);
-    let x_hi = if x_max * 1.05 >= MIN_SPAN { x_max * 1.05 } else { 1.0 };
+    let lot_point = oc.lot_point.filter(on_chart);
+    let aql = oc.aql_pct.filter(|a| a.is_finite() && (0.0..=100.0).contains(a));
+    let x_max = curve
+        .iter()
+        .map(|p| p.0)
+        .chain(lot_point.map(|p| p.0 * 1.08))
+        .chain(aql.map(|a| a * 1.08))
+        .fold(0.0, f64::max);
+    let x_hi = if x_max >= MIN_SPAN { x_max } else { 1.0 };
     let y_hi = 1.05;
     let x_decimals = tick_decimals(x_hi);
 
     draw(CHART, WIDE, |root| {
         let mut chart = ChartBuilder::on(root)
             .margin(14)
-            .caption(label, (FONT, CAPTION_PX).into_font().color(&INK))
+            .margin_top(50)
             .x_label_area_size(44)
             .y_label_area_size(52)
             .build_cartesian_2d(0.0..x_hi, 0.0..y_hi)?;
@@ -404,23 +623,151 @@ pub fn oc_curve_svg(
 
         chart.draw_series(LineSeries::new(curve.iter().copied(), BLUE.stroke_width(2)))?;
 
+        if let Some(a) = aql {
+            let guide = GREEN.stroke_width(1);
+            chart.draw_series(DashedLineSeries::new([(a, 0.0), (a, 1.0)], 3, 3, guide))?;
+            let style = (FONT, SMALL_PX).into_font().color(&GREEN).pos(Pos::new(HPos::Left, VPos::Bottom));
+            chart.draw_series(std::iter::once(Text::new(
+                format!("AQL {} %", sig(a)),
+                (a + 0.01 * x_hi, 0.03),
+                style,
+            )))?;
+        }
         if let Some((x, y)) = lot_point {
             let guide = GUIDE.stroke_width(1);
             chart.draw_series(DashedLineSeries::new([(x, 0.0), (x, y)], 5, 4, guide))?;
             chart.draw_series(DashedLineSeries::new([(0.0, y), (x, y)], 5, 4, guide))?;
             chart.draw_series(std::iter::once(Circle::new((x, y), 6, VERMILLION.filled())))?;
             chart.draw_series(std::iter::once(Circle::new((x, y), 6, INK.stroke_width(1))))?;
-            // Put the label on whichever side of the marker has room.
-            let (h_pos, dx) = if x > x_hi * 0.6 { (HPos::Right, -0.015) } else { (HPos::Left, 0.015) };
-            let style = (FONT, LABEL_PX).into_font().color(&INK).pos(Pos::new(h_pos, VPos::Bottom));
-            chart.draw_series(std::iter::once(Text::new(
-                format!("this lot: {} % defective, Pa {:.3}", sig(x), y),
-                (x + dx * x_hi, y + 0.02 * y_hi),
-                style,
-            )))?;
+            // The lot's figures go in the legend line above the plot, where they can never
+            // sit on the curve, the guides or the AQL label.
+            let mut legend = Legend::right_aligned(WIDE.0 as i32 - 14, 36);
+            legend.item(
+                root,
+                &format!("this lot: {} % defective, Pa {:.3}", sig(x), y),
+                Swatch::Dot(VERMILLION),
+            )?;
         }
+        let caption_style = (FONT, CAPTION_PX).into_font().color(&INK).pos(Pos::new(HPos::Left, VPos::Top));
+        root.draw(&Text::new(oc.caption.to_string(), (14, 8), caption_style))?;
         Ok(())
     })
+}
+
+/// Rows of labels above a plot: each label goes to the first row where it fits without
+/// touching another, so limit and nominal labels never overlap however close they are.
+struct LabelRows {
+    /// Baseline (text bottom) of each row, px.
+    rows: Vec<(i32, Vec<(i32, i32)>)>,
+    /// Leftmost and rightmost pixel a label may use.
+    bounds: (i32, i32),
+}
+
+impl LabelRows {
+    fn new(baselines: &[i32], bounds: (i32, i32)) -> LabelRows {
+        LabelRows { rows: baselines.iter().map(|y| (*y, Vec::new())).collect(), bounds }
+    }
+
+    /// Places a label of `width` px anchored at `x` (left edge, right edge or centre);
+    /// returns its left edge and baseline. When no row has room it goes to the last row.
+    fn place(&mut self, x: i32, anchor: HPos, width: f64) -> (i32, i32) {
+        let width = width.ceil() as i32;
+        let left = match anchor {
+            HPos::Left => x + 3,
+            HPos::Right => x - 3 - width,
+            HPos::Center => x - width / 2,
+        };
+        let left = left.clamp(self.bounds.0, (self.bounds.1 - width).max(self.bounds.0));
+        let span = (left - 4, left + width + 4);
+        let free = |taken: &Vec<(i32, i32)>| taken.iter().all(|(a, b)| span.1 <= *a || span.0 >= *b);
+        let index = self.rows.iter().position(|(_, taken)| free(taken)).unwrap_or(self.rows.len() - 1);
+        let (baseline, taken) = &mut self.rows[index];
+        taken.push(span);
+        (left, *baseline)
+    }
+}
+
+/// The positions nearest to `wanted` (sorted, px) that keep neighbours `gap` apart inside
+/// `[top, bottom]`; when they cannot all fit, they are spaced evenly over the range.
+fn spread_apart(wanted: &[i32], gap: i32, top: i32, bottom: i32) -> Vec<i32> {
+    let n = wanted.len() as i32;
+    if n == 0 {
+        return Vec::new();
+    }
+    if gap * (n - 1) > bottom - top {
+        let step = if n > 1 { f64::from(bottom - top) / f64::from(n - 1) } else { 0.0 };
+        return (0..n).map(|i| top + (f64::from(i) * step).round() as i32).collect();
+    }
+    let mut placed: Vec<i32> = Vec::with_capacity(wanted.len());
+    for &y in wanted {
+        let floor = placed.last().map_or(top, |last| last + gap);
+        placed.push(y.clamp(top, bottom).max(floor));
+    }
+    // Pushed past the bottom: walk back up, keeping the gap.
+    let mut ceiling = bottom;
+    for y in placed.iter_mut().rev() {
+        *y = (*y).min(ceiling);
+        ceiling = *y - gap;
+    }
+    placed
+}
+
+/// Rough width of `text` at `size_px` (plotters' size, before its /1.24), for layout:
+/// sans-serif glyphs average a little over half the font size.
+fn text_width_px(text: &str, size_px: f64) -> f64 {
+    text.chars().count() as f64 * size_px / 1.24 * 0.6
+}
+
+/// `text` shortened with an ellipsis to fit `width` px at `size_px`.
+fn clip_label(text: &str, width: u32, size_px: f64) -> String {
+    let fits = (f64::from(width) / (size_px / 1.24 * 0.6)).floor() as usize;
+    if text.chars().count() <= fits || fits < 2 {
+        return text.to_string();
+    }
+    let mut clipped: String = text.chars().take(fits - 1).collect();
+    clipped.push('…');
+    clipped
+}
+
+/// A legend drawn right to left along one line at the top of a chart.
+struct Legend {
+    right: i32,
+    y: i32,
+}
+
+/// The mark a legend item shows.
+#[derive(Clone, Copy)]
+enum Swatch {
+    Dot(RGBColor),
+    Triangle(RGBColor),
+    Ring(RGBColor),
+    Line(RGBColor),
+}
+
+impl Legend {
+    fn right_aligned(right: i32, y: i32) -> Legend {
+        Legend { right, y }
+    }
+
+    /// Draws one item to the left of the previous one.
+    fn item(&mut self, root: &DrawingArea<SVGBackend<'_>, Shift>, text: &str, swatch: Swatch) -> DrawResult {
+        let width = text_width_px(text, SMALL_PX).ceil() as i32;
+        let text_left = self.right - width;
+        let style = (FONT, SMALL_PX).into_font().color(&INK).pos(Pos::new(HPos::Left, VPos::Center));
+        root.draw(&Text::new(text.to_string(), (text_left, self.y), style))?;
+        let mark = (text_left - 10, self.y);
+        match swatch {
+            Swatch::Dot(colour) => root.draw(&Circle::new(mark, 4, colour.filled()))?,
+            Swatch::Triangle(colour) => root.draw(&TriangleMarker::new(mark, 6, colour.filled()))?,
+            Swatch::Ring(colour) => root.draw(&Circle::new(mark, 4, colour.stroke_width(2)))?,
+            Swatch::Line(colour) => root.draw(&PathElement::new(
+                vec![(mark.0 - 8, mark.1), (mark.0 + 6, mark.1)],
+                colour.stroke_width(2),
+            ))?,
+        }
+        self.right = text_left - 28;
+        Ok(())
+    }
 }
 
 pub(crate) type DrawResult =
@@ -468,8 +815,15 @@ pub(crate) fn draw(
     Ok(SvgMarkup::generated(buf))
 }
 
-/// A small box saying the chart has no data; `chart` is always one of this module's names.
+/// A small box saying a chart has nothing to show (the pipeline also puts it in place of a
+/// chart that failed to draw, so a report is never lost for a chart).
+pub fn no_data_svg(chart: &str) -> SvgMarkup {
+    no_data(chart)
+}
+
+/// A small box saying the chart has no data; `chart` is escaped for SVG text.
 pub(crate) fn no_data(chart: &str) -> SvgMarkup {
+    let chart = chart.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;");
     let (w, h) = (360, 72);
     SvgMarkup::generated(format!(
         "<svg width=\"{w}\" height=\"{h}\" viewBox=\"0 0 {w} {h}\" xmlns=\"http://www.w3.org/2000/svg\">\n\
@@ -483,45 +837,7 @@ pub(crate) fn no_data(chart: &str) -> SvgMarkup {
     ))
 }
 
-/// Equal-width bins over the data range.
-#[derive(Debug, Clone, PartialEq)]
-struct Bins {
-    start: f64,
-    width: f64,
-    counts: Vec<usize>,
-}
-
-impl Bins {
-    /// Sturges' rule for the bin count (ceil(log2 n) + 1), capped so bars stay visible.
-    fn of(data: &[f64]) -> Option<Bins> {
-        let (lo, hi) = span_of(data.iter().copied())?;
-        let span = hi - lo;
-        let scale = lo.abs().max(hi.abs());
-        if span.is_nan() || span <= scale * 1e-12 {
-            // All values equal: one bin centred on them.
-            let width = if scale > 0.0 { scale * 0.02 } else { 1.0 };
-            return Some(Bins { start: lo - width / 2.0, width, counts: vec![data.len()] });
-        }
-        let k = ((data.len() as f64).log2().ceil() as usize + 1).clamp(1, 30);
-        let width = span / k as f64;
-        let mut counts = vec![0; k];
-        for v in data {
-            let index = (((v - lo) / width).floor() as usize).min(k - 1);
-            counts[index] += 1;
-        }
-        Some(Bins { start: lo, width, counts })
-    }
-
-    fn end(&self) -> f64 {
-        self.start + self.width * self.counts.len() as f64
-    }
-}
-
-/// Count a bin of `bin_width` centred on `x` would hold under the fitted normal.
-fn expected_count(x: f64, n: f64, bin_width: f64, mean: f64, sd: f64) -> f64 {
-    n * bin_width * normal_pdf(x, mean, sd)
-}
-
+/// Density of the normal distribution with this mean and standard deviation.
 fn normal_pdf(x: f64, mean: f64, sd: f64) -> f64 {
     let z = (x - mean) / sd;
     (-0.5 * z * z).exp() / (sd * (2.0 * std::f64::consts::PI).sqrt())
@@ -570,15 +886,6 @@ fn tick_decimals(span: f64) -> usize {
         return 2;
     }
     (1.0 - (span / 10.0).log10().floor()).clamp(0.0, 6.0) as usize
-}
-
-/// Counts are whole parts: fractional ticks get no label rather than a repeated one.
-fn integer_tick(v: f64) -> String {
-    if (v - v.round()).abs() < 1e-9 {
-        format!("{v:.0}")
-    } else {
-        String::new()
-    }
 }
 
 /// Four significant figures without trailing zeros: short enough for a chart label.
@@ -649,50 +956,124 @@ mod tests {
         (0..n).map(|i| centre - half_width + 2.0 * half_width * i as f64 / (n - 1) as f64).collect()
     }
 
-    #[test]
-    fn histogram_draws_limits_nominal_bars_and_fit() {
-        let values = spread(40, 5.0, 2.0);
-        let svg = rate_histogram_svg(&values, Some(1.0), Some(9.0), Some(5.0), Some((5.0, 1.2)), "rate")
-            .unwrap()
-            .into_string();
-        assert_inline_svg(&svg);
-        let labels: Vec<String> = texts(&svg).into_iter().map(|t| t.1).collect();
-        for wanted in ["LSL 1", "USL 9", "nominal 5"] {
-            assert!(labels.iter().any(|l| l == wanted), "no label {wanted:?} in {labels:?}");
+    fn points(values: &[f64], verdict: Verdict) -> Vec<StripPoint> {
+        values.iter().map(|v| StripPoint { value: *v, verdict }).collect()
+    }
+
+    fn strip<'a>(points: &'a [StripPoint], lower: Option<f64>, upper: Option<f64>) -> StripChart<'a> {
+        StripChart {
+            characteristic: "rate",
+            unit: "N·mm/°",
+            points,
+            lower,
+            upper,
+            nominal: Some(29.2),
+            normal_fit: None,
         }
-        // Limits are dashed (drawn as many short segments) in the limit colour.
-        assert!(svg.matches("stroke=\"#D55E00\" stroke-width=\"2\"").count() > 4);
-        // Nominal: one solid line in its own colour.
-        assert!(svg.contains("stroke=\"#009E73\" stroke-width=\"2\""));
-        // Fit: a polyline in the fit colour.
-        assert!(svg.contains("<polyline fill=\"none\" opacity=\"1\" stroke=\"#0072B2\" stroke-width=\"2\""));
-        // Bars: filled rectangles, one per non-empty bin (40 spread values fill all 7 bins).
-        let bins = Bins::of(&values).unwrap();
-        assert_eq!(bins.counts.len(), 7);
-        assert_eq!(svg.matches("fill=\"#56B4E9\"").count(), 7);
+    }
+
+    /// Left and right pixel edge and baseline of each label text, as the layout estimates them.
+    fn label_boxes(svg: &str, starts: &[&str]) -> Vec<(f64, f64, f64)> {
+        texts(svg)
+            .into_iter()
+            .filter(|(_, t)| starts.iter().any(|s| t.starts_with(s)))
+            .map(|(tag, t)| {
+                let x = attr(&tag, "x").unwrap();
+                let y = attr(&tag, "y").unwrap();
+                (x, x + text_width_px(&t, SMALL_PX), y)
+            })
+            .collect()
     }
 
     #[test]
-    fn histogram_axis_reaches_limits_far_from_data() {
-        let values = spread(20, 10.0, 0.1);
-        let svg =
-            rate_histogram_svg(&values, Some(5.0), Some(15.0), None, None, "rate").unwrap().into_string();
-        let all = texts(&svg);
-        let lsl = all.iter().find(|t| t.1.starts_with("LSL")).unwrap();
-        let usl = all.iter().find(|t| t.1.starts_with("USL")).unwrap();
-        let (x_lsl, x_usl) = (attr(&lsl.0, "x").unwrap(), attr(&usl.0, "x").unwrap());
-        assert!(x_lsl > 0.0 && x_usl < 760.0 && x_lsl < x_usl, "{x_lsl} {x_usl}");
+    fn strip_shows_each_part_over_the_drawing_band() {
+        let mut all = points(&spread(40, 29.2, 1.0), Verdict::Pass);
+        all.extend(points(&[31.9, 32.4], Verdict::Fail));
+        all.extend(points(&[28.0], Verdict::Invalid));
+        let svg = strip_chart_svg(&strip(&all, Some(26.86), Some(31.54))).unwrap().into_string();
+        assert_inline_svg(&svg);
+        // One mark per part, each kind in its own colour and shape.
+        assert_eq!(svg.matches("<circle").filter(|_| true).count(), 40 + 1 + 2, "dots plus two legend dots");
+        assert_eq!(
+            svg.matches("fill=\"#0072B2\"").count(),
+            40 + 1,
+            "within: filled blue (and its legend dot)"
+        );
+        assert_eq!(svg.matches("stroke=\"#CC79A7\" stroke-width=\"2\"").count(), 1 + 1, "invalid: ring");
+        assert_eq!(svg.matches("<polygon").count(), 2 + 1, "outside: triangles (and the legend's)");
+        // The band is shaded, its edges are drawn, and they are labelled as the drawing's.
+        assert!(svg.contains("fill=\"#DFF2EA\""));
+        let labels: Vec<String> = texts(&svg).into_iter().map(|t| t.1).collect();
+        for wanted in [
+            "drawing min 26.86 N·mm/°",
+            "drawing max 31.54 N·mm/°",
+            "nominal 29.2",
+            "within drawing (40)",
+            "outside drawing (2)",
+            "invalid (1)",
+            "rate: 43 parts",
+        ] {
+            assert!(labels.iter().any(|l| l == wanted), "no label {wanted:?} in {labels:?}");
+        }
+        // No normal model unless the caller gives one.
+        assert!(!svg.contains("normal model") && !svg.contains("#E69F00"));
+    }
+
+    #[test]
+    fn strip_draws_the_normal_model_only_when_given() {
+        let all = points(&spread(30, 29.2, 1.0), Verdict::Pass);
+        let chart = StripChart { normal_fit: Some((29.2, 0.4)), ..strip(&all, Some(26.86), Some(31.54)) };
+        let svg = strip_chart_svg(&chart).unwrap().into_string();
+        assert!(svg.contains("<polyline fill=\"none\" opacity=\"1\" stroke=\"#E69F00\" stroke-width=\"2\""));
+        assert!(svg.contains("normal model, mean 29.2 sd 0.4"));
+        // A zero or missing spread is no model, rather than a division by zero.
+        let chart = StripChart { normal_fit: Some((29.2, 0.0)), ..strip(&all, None, None) };
+        assert!(!strip_chart_svg(&chart).unwrap().as_str().contains("normal model"));
+    }
+
+    #[test]
+    fn strip_labels_never_overlap_even_when_limits_crowd_together() {
+        // Limits a hair apart with the nominal between them, and data far away: the three
+        // labels would sit on top of each other in one row.
+        let all = points(&[10.0, 40.0], Verdict::Fail);
+        let chart = StripChart { nominal: Some(25.05), ..strip(&all, Some(25.0), Some(25.1)) };
+        let svg = strip_chart_svg(&chart).unwrap().into_string();
+        let boxes = label_boxes(&svg, &["drawing min", "drawing max", "nominal"]);
+        assert_eq!(boxes.len(), 3);
+        for (i, a) in boxes.iter().enumerate() {
+            for b in &boxes[i + 1..] {
+                let same_row = (a.2 - b.2).abs() < 1.0;
+                let apart = a.1 <= b.0 || b.1 <= a.0;
+                assert!(!same_row || apart, "labels overlap: {a:?} {b:?}");
+            }
+            assert!(a.0 >= 0.0 && a.1 <= f64::from(STRIP_WIDTH), "label off the chart: {a:?}");
+        }
+    }
+
+    #[test]
+    fn strip_axis_reaches_limits_far_from_the_data() {
+        let all = points(&spread(20, 10.0, 0.1), Verdict::Pass);
+        let chart = StripChart { nominal: None, ..strip(&all, Some(5.0), Some(15.0)) };
+        let svg = strip_chart_svg(&chart).unwrap().into_string();
+        let boxes = label_boxes(&svg, &["drawing min"]);
+        let max_boxes = label_boxes(&svg, &["drawing max"]);
+        assert!(boxes[0].0 > 0.0 && max_boxes[0].1 < 760.0 && boxes[0].0 < max_boxes[0].0);
         assert!(!svg.contains("nominal"));
     }
 
     #[test]
-    fn fitted_counts_add_up_to_the_sample_size() {
-        // Common practice, no published source: a density times n times bin width,
-        // summed over bins covering ±8 sd, gives back n.
-        let (n, width, mean, sd) = (50.0, 0.1, 3.0, 0.4);
-        let total: f64 =
-            (-320..320).map(|i| expected_count(mean + (i as f64 + 0.5) * width, n, width, mean, sd)).sum();
-        assert!((total - n).abs() < 1e-6, "{total}");
+    fn coinciding_values_stack_instead_of_hiding_each_other() {
+        let all = points(&[4.2; 9], Verdict::Pass);
+        let svg = strip_chart_svg(&strip(&all, Some(4.0), None)).unwrap().into_string();
+        let ys: std::collections::BTreeSet<i64> = svg
+            .split("<circle")
+            .skip(1)
+            .filter(|c| c.contains("fill=\"#0072B2\""))
+            .filter_map(|c| attr(&format!(" {c}"), "cy"))
+            .map(|y| y as i64)
+            .collect();
+        // Nine dots at nine heights (plus the legend dot at its own).
+        assert!(ys.len() >= 9, "{ys:?}");
     }
 
     #[test]
@@ -706,24 +1087,25 @@ mod tests {
     }
 
     #[test]
-    fn histogram_survives_degenerate_input() {
-        let one = rate_histogram_svg(&[4.2; 9], Some(4.0), None, None, Some((4.2, 0.0)), "rate").unwrap();
-        assert_inline_svg(one.as_str());
-        assert_eq!(one.as_str().matches("fill=\"#56B4E9\"").count(), 1);
-        // A zero sd is no fit, rather than a division by zero.
-        assert!(!one.as_str().contains("normal fit"));
-        let zero = rate_histogram_svg(&[0.0, 0.0], None, None, None, None, "rate").unwrap();
-        assert_inline_svg(zero.as_str());
-    }
-
-    #[test]
     fn empty_charts_say_no_data() {
+        let nothing = points(&[f64::NAN, f64::INFINITY], Verdict::Pass);
         let all = [
-            rate_histogram_svg(&[], Some(1.0), Some(2.0), None, None, "rate").unwrap(),
-            rate_histogram_svg(&[f64::NAN, f64::INFINITY], None, None, None, None, "rate").unwrap(),
-            curves_svg(&[], &[ToleranceWindow { angle_deg: 45.0, lower_nmm: Some(1.0), upper_nmm: None }])
-                .unwrap(),
-            oc_curve_svg(&[], Some((1.0, 0.5)), "plan").unwrap(),
+            strip_chart_svg(&strip(&[], Some(1.0), Some(2.0))).unwrap(),
+            strip_chart_svg(&strip(&nothing, None, None)).unwrap(),
+            curves_svg(&CurveChart {
+                curves: &[],
+                windows: &[ToleranceWindow { angle_deg: 45.0, lower_nmm: Some(1.0), upper_nmm: None }],
+                free_angle: None,
+                curves_in_lot: 0,
+            })
+            .unwrap(),
+            oc_curve_svg(&OcChart {
+                points: &[],
+                lot_point: Some((1.0, 0.5)),
+                aql_pct: None,
+                caption: "plan",
+            })
+            .unwrap(),
         ];
         for svg in all {
             assert_inline_svg(svg.as_str());
@@ -732,68 +1114,142 @@ mod tests {
         }
     }
 
-    fn line(label: &str, rate: f64, flagged: bool) -> CurveLine {
+    fn line(label: &str, rate: f64, verdict: Verdict) -> CurveLine {
         let angle_deg: Vec<f64> = (0..=90).map(f64::from).collect();
         let torque_nmm = angle_deg.iter().map(|a| rate * a).collect();
-        CurveLine { label: label.into(), angle_deg, torque_nmm, flagged }
+        CurveLine { label: label.into(), angle_deg, torque_nmm, verdict }
+    }
+
+    fn overlay<'a>(curves: &'a [CurveLine], windows: &'a [ToleranceWindow], in_lot: usize) -> CurveChart<'a> {
+        CurveChart { curves, windows, free_angle: None, curves_in_lot: in_lot }
     }
 
     #[test]
-    fn curves_mark_flagged_parts_and_tolerance_windows() {
-        let curves =
-            [line("SN-1", 10.0, false), line("SN-2", 10.2, false), line("<script>x</script>", 12.0, true)];
+    fn curves_mark_failed_and_invalid_parts_apart_and_draw_the_limits() {
+        let curves = [
+            line("SN-1", 10.0, Verdict::Pass),
+            line("SN-2", 10.2, Verdict::Pass),
+            line("<script>x</script>", 12.0, Verdict::Fail),
+            line("SN-9", 9.0, Verdict::Invalid),
+        ];
         let windows = [
             ToleranceWindow { angle_deg: 45.0, lower_nmm: Some(420.0), upper_nmm: Some(480.0) },
             ToleranceWindow { angle_deg: 80.0, lower_nmm: Some(760.0), upper_nmm: None },
         ];
-        let svg = curves_svg(&curves, &windows).unwrap().into_string();
+        let chart = CurveChart {
+            free_angle: Some(FreeAngleLimits { lower_deg: Some(-3.0), upper_deg: Some(3.0) }),
+            ..overlay(&curves, &windows, 4)
+        };
+        let svg = curves_svg(&chart).unwrap().into_string();
         assert_inline_svg(&svg);
-        // Two plain curves (plus their legend swatch) and one flagged curve (plus swatch).
+        // Two passing curves (and their legend swatch); one failed, one invalid (each with a swatch).
         assert_eq!(svg.matches("stroke=\"#0072B2\" stroke-width=\"1\"").count(), 3);
-        assert_eq!(svg.matches("stroke=\"#D55E00\" stroke-width=\"2\"").count(), 2);
+        assert_eq!(
+            svg.matches("<polyline fill=\"none\" opacity=\"1\" stroke=\"#D55E00\" stroke-width=\"2\"")
+                .count(),
+            2
+        );
+        assert!(svg.matches("stroke=\"#CC79A7\" stroke-width=\"2\"").count() > 2, "invalid: dashed segments");
         // Window bars (and the legend swatch) in ink, width 3; caps: two + one.
         assert_eq!(svg.matches("stroke=\"#222222\" stroke-width=\"3\"").count(), 3);
-        assert_eq!(
-            svg.matches("<polyline fill=\"none\" opacity=\"1\" stroke=\"#222222\" stroke-width=\"2\"")
-                .count(),
-            3
-        );
+        // The free-angle limits: a bar along zero torque (and its legend swatch), two end ticks.
+        assert_eq!(svg.matches("stroke-width=\"6\"").count(), 2);
         let labels: Vec<String> = texts(&svg).into_iter().map(|t| t.1).collect();
-        for wanted in ["45°", "80°", "&lt;script&gt;x&lt;/script&gt;", "flagged (1)", "not flagged (2)"] {
+        for wanted in [
+            "@45°",
+            "@80°",
+            "&lt;script&gt;x&lt;/script&gt;",
+            "SN-9",
+            "failed (1)",
+            "invalid, dashed (1)",
+            "within the drawing (2)",
+            "drawing&apos;s free-angle limits (at zero torque)",
+            "all 4 curves",
+        ] {
             assert!(labels.iter().any(|l| l == wanted), "no label {wanted:?} in {labels:?}");
         }
         assert!(!svg.contains("<script>"));
+        assert!(!labels.iter().any(|l| l == "SN-1"), "passing curves are not labelled");
     }
 
     #[test]
-    fn curves_skip_bad_points_and_ragged_vectors() {
-        let mut ragged = line("A", 5.0, false);
-        ragged.torque_nmm.truncate(10);
-        ragged.torque_nmm[3] = f64::NAN;
-        let lone =
-            CurveLine { label: "B".into(), angle_deg: vec![1.0], torque_nmm: vec![2.0], flagged: true };
-        let svg = curves_svg(&[ragged, lone], &[]).unwrap().into_string();
-        assert_inline_svg(&svg);
-        assert!(svg.contains("1 curves, 0 flagged"));
+    fn the_caption_says_when_not_every_curve_is_drawn() {
+        let curves = [line("A", 5.0, Verdict::Pass), line("B", 6.0, Verdict::Fail)];
+        let svg = curves_svg(&overlay(&curves, &[], 50)).unwrap().into_string();
+        assert!(svg.contains("2 of 50 curves drawn (failed and invalid first)"), "{svg}");
     }
 
     #[test]
-    fn oc_curve_marks_the_lot() {
+    fn many_flagged_curves_get_labels_that_do_not_overlap() {
+        // Twenty failed curves ending within a few newtons of each other.
+        let curves: Vec<CurveLine> = (0..20)
+            .map(|i| line(&format!("L2612-040-{i:03}"), 10.0 + 0.01 * f64::from(i), Verdict::Fail))
+            .collect();
+        let svg = curves_svg(&overlay(&curves, &[], 20)).unwrap().into_string();
+        let mut ys: Vec<f64> = texts(&svg)
+            .into_iter()
+            .filter(|(_, t)| t.starts_with("L2612-040-"))
+            .map(|(tag, _)| attr(&tag, "y").unwrap())
+            .collect();
+        assert_eq!(ys.len(), MAX_CURVE_LABELS);
+        ys.sort_by(f64::total_cmp);
+        for pair in ys.windows(2) {
+            assert!(pair[1] - pair[0] >= 14.0, "labels {pair:?} overlap");
+        }
+        assert!(svg.contains(&format!("+{} more (data sheet)", 20 - MAX_CURVE_LABELS)));
+    }
+
+    #[test]
+    fn spreading_keeps_order_gap_and_bounds() {
+        assert_eq!(spread_apart(&[100, 101, 102], 15, 0, 400), vec![100, 115, 130]);
+        assert_eq!(spread_apart(&[395, 396], 15, 0, 400), vec![385, 400]);
+        assert_eq!(spread_apart(&[5, 5, 5], 15, 0, 20), vec![0, 10, 20], "too many: even spacing");
+        assert!(spread_apart(&[], 15, 0, 10).is_empty());
+    }
+
+    #[test]
+    fn oc_curve_marks_the_lot_and_the_aql() {
         let points: Vec<(f64, f64)> = (0..=20).map(|i| (i as f64, 1.0 - i as f64 / 20.0)).collect();
-        let svg = oc_curve_svg(&points, Some((4.0, 0.8)), "n = 50, Ac 1").unwrap().into_string();
+        let chart = OcChart {
+            points: &points,
+            lot_point: Some((4.0, 0.8)),
+            aql_pct: Some(1.0),
+            caption: "n 50, Ac 1",
+        };
+        let svg = oc_curve_svg(&chart).unwrap().into_string();
         assert_inline_svg(&svg);
         assert!(svg.contains("<polyline fill=\"none\" opacity=\"1\" stroke=\"#0072B2\" stroke-width=\"2\""));
         assert!(svg.contains("<circle") && svg.contains("fill=\"#D55E00\""));
         let labels: Vec<String> = texts(&svg).into_iter().map(|t| t.1).collect();
-        assert!(labels.iter().any(|l| l == "this lot: 4 % defective, Pa 0.800"), "{labels:?}");
-        assert!(labels.iter().any(|l| l == "n = 50, Ac 1"));
-        let without = oc_curve_svg(&points, None, "plan").unwrap().into_string();
-        assert!(!without.contains("<circle") && !without.contains("this lot"));
+        for wanted in ["this lot: 4 % defective, Pa 0.800", "n 50, Ac 1", "AQL 1 %"] {
+            assert!(labels.iter().any(|l| l == wanted), "no label {wanted:?} in {labels:?}");
+        }
+        let without =
+            oc_curve_svg(&OcChart { lot_point: None, aql_pct: None, ..chart }).unwrap().into_string();
+        assert!(!without.contains("<circle") && !without.contains("this lot") && !without.contains("AQL"));
+    }
+
+    #[test]
+    fn oc_axis_ends_where_the_points_end() {
+        // The caller chooses the range from the plan; the chart does not stretch it to 30 %.
+        let points: Vec<(f64, f64)> =
+            (0..=50).map(|i| (i as f64 * 0.12, (-(i as f64) / 10.0).exp())).collect();
+        let chart = OcChart { points: &points, lot_point: Some((0.0, 1.0)), aql_pct: None, caption: "plan" };
+        let svg = oc_curve_svg(&chart).unwrap().into_string();
+        let ticks: Vec<f64> = texts(&svg).into_iter().filter_map(|(_, t)| t.parse::<f64>().ok()).collect();
+        let largest = ticks.iter().copied().fold(0.0, f64::max);
+        assert!((5.0..=6.0).contains(&largest), "{ticks:?}");
     }
 
     #[test]
     fn markup_is_trusted_only_when_drawn_here() {
-        let drawn = oc_curve_svg(&[(0.0, 1.0), (5.0, 0.2)], None, "plan").unwrap();
+        let drawn = oc_curve_svg(&OcChart {
+            points: &[(0.0, 1.0), (5.0, 0.2)],
+            lot_point: None,
+            aql_pct: None,
+            caption: "plan",
+        })
+        .unwrap();
         assert!(minijinja::Value::from_serialize(&drawn).is_safe());
         let json = serde_json::to_string(&drawn).unwrap();
         assert_eq!(serde_json::from_str::<String>(&json).unwrap(), drawn.as_str());
@@ -812,17 +1268,15 @@ mod tests {
         assert_eq!(significant(11.2, 4), "11.20");
     }
 
-    proptest! {
-        #[test]
-        fn bins_hold_every_value(values in prop::collection::vec(-1e6f64..1e6, 1..200)) {
-            let bins = Bins::of(&values).unwrap();
-            prop_assert_eq!(bins.counts.iter().sum::<usize>(), values.len());
-            let slack = bins.width * 1e-9;
-            for v in &values {
-                prop_assert!(*v >= bins.start - slack && *v <= bins.end() + slack);
-            }
-        }
+    #[test]
+    fn long_labels_are_clipped_to_the_margin() {
+        assert_eq!(clip_label("SN-1", 150, SMALL_PX), "SN-1");
+        let long = "a-very-long-serial-number-from-a-rig-export";
+        let clipped = clip_label(long, 150, SMALL_PX);
+        assert!(clipped.ends_with('…') && text_width_px(&clipped, SMALL_PX) <= 150.0, "{clipped}");
+    }
 
+    proptest! {
         #[test]
         fn thinning_bounds_length_and_keeps_ends(len in 0usize..3000, max in 2usize..700) {
             let points: Vec<(f64, f64)> = (0..len).map(|i| (i as f64, 0.0)).collect();
@@ -830,6 +1284,17 @@ mod tests {
             prop_assert!(kept.len() <= max.max(len.min(max)));
             prop_assert_eq!(kept.first(), points.first());
             prop_assert_eq!(kept.last(), points.last());
+        }
+
+        #[test]
+        fn spread_labels_stay_apart(mut wanted in prop::collection::vec(0i32..500, 0..30)) {
+            wanted.sort_unstable();
+            let placed = spread_apart(&wanted, 15, 40, 440);
+            prop_assert_eq!(placed.len(), wanted.len());
+            for pair in placed.windows(2) {
+                prop_assert!(pair[1] - pair[0] >= 13, "{:?}", placed);
+            }
+            prop_assert!(placed.iter().all(|y| (40..=440).contains(y)));
         }
 
         #[test]
@@ -849,21 +1314,50 @@ mod tests {
         let (done, finished) = std::sync::mpsc::channel();
         std::thread::spawn(move || {
             let outcome = (|| {
-                let svg = rate_histogram_svg(&values, limit, None, limit, Some((0.0, sd)), "x")
-                    .map_err(|e| format!("histogram: {e}"))?;
+                let marks: Vec<StripPoint> = values
+                    .iter()
+                    .enumerate()
+                    .map(|(i, v)| StripPoint {
+                        value: *v,
+                        verdict: [Verdict::Pass, Verdict::Fail, Verdict::Invalid][i % 3],
+                    })
+                    .collect();
+                let chart = StripChart {
+                    characteristic: "x",
+                    unit: "u",
+                    points: &marks,
+                    lower: limit,
+                    upper: None,
+                    nominal: limit,
+                    normal_fit: Some((0.0, sd)),
+                };
+                let svg = strip_chart_svg(&chart).map_err(|e| format!("strip: {e}"))?;
                 if !svg.as_str().starts_with("<svg ") {
-                    return Err("histogram is not SVG".to_string());
+                    return Err("strip chart is not SVG".to_string());
                 }
                 let curve = CurveLine {
                     label: "p".into(),
                     angle_deg: values.clone(),
                     torque_nmm: values.iter().rev().copied().collect(),
-                    flagged: true,
+                    verdict: Verdict::Fail,
                 };
                 let window = ToleranceWindow { angle_deg: sd, lower_nmm: limit, upper_nmm: None };
-                curves_svg(&[curve], &[window]).map_err(|e| format!("curves: {e}"))?;
+                let free = FreeAngleLimits { lower_deg: limit, upper_deg: Some(sd) };
+                curves_svg(&CurveChart {
+                    curves: &[curve],
+                    windows: &[window],
+                    free_angle: Some(free),
+                    curves_in_lot: values.len(),
+                })
+                .map_err(|e| format!("curves: {e}"))?;
                 let oc: Vec<(f64, f64)> = values.iter().map(|v| (*v, 0.5)).collect();
-                oc_curve_svg(&oc, limit.map(|l| (l, l)), "plan").map_err(|e| format!("OC: {e}"))?;
+                oc_curve_svg(&OcChart {
+                    points: &oc,
+                    lot_point: limit.map(|l| (l, l)),
+                    aql_pct: limit,
+                    caption: "plan",
+                })
+                .map_err(|e| format!("OC: {e}"))?;
                 Ok(())
             })();
             let _ = done.send(outcome);

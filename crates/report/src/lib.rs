@@ -12,19 +12,25 @@
 //! embed, so the layers that compute results never have to know how they are shown.
 //!
 //! Main types: [`Renderer`], [`LotReport`], [`ShiftSummary`], [`TestsCsv`],
-//! [`PlanReport`], [`WorklistCsv`], [`SvgMarkup`], [`ReportError`]; chart functions
-//! [`rate_histogram_svg`], [`curves_svg`], [`oc_curve_svg`] and the plan's [`gantt_svg`].
+//! [`DataSheet`], [`PlanReport`], [`WorklistCsv`], [`SvgMarkup`], [`ReportError`]; chart
+//! functions [`strip_chart_svg`], [`curves_svg`], [`oc_curve_svg`] and the plan's
+//! [`gantt_svg`]; [`format_metric`] prints a value at its metric's precision.
 
 pub mod charts;
 pub mod context;
+pub mod format;
 pub mod gantt;
 pub mod render;
 
-pub use charts::{curves_svg, oc_curve_svg, rate_histogram_svg, CurveLine, SvgMarkup, ToleranceWindow};
-pub use context::{
-    default_cautions, plan_cautions, Charts, LotReport, PlanReport, ShiftSummary, TestsCsv, WorkStep,
-    WorklistCsv,
+pub use charts::{
+    curves_svg, no_data_svg, oc_curve_svg, strip_chart_svg, CurveChart, CurveLine, FreeAngleLimits, OcChart,
+    StripChart, StripPoint, SvgMarkup, ToleranceWindow,
 };
+pub use context::{
+    default_cautions, plan_cautions, Charts, DataCell, DataColumn, DataRow, DataSheet, LotReport, PlanReport,
+    ShiftSummary, TestsCsv, ValuesChart, WorkStep, WorklistCsv,
+};
+pub use format::{format_metric, MetricKind};
 pub use gantt::{gantt_svg, BarKind, GanttBar, GanttRow};
 pub use render::{csv_field, Renderer, TemplateSource};
 

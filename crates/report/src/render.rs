@@ -89,6 +89,7 @@ impl Renderer {
         env.add_filter("csv_field", csv_field_filter);
         env.add_filter("fixed", fixed_filter);
         env.add_filter("sig", sig_filter);
+        env.add_filter("metric", metric_filter);
         env.add_filter("md_text", md_text_filter);
         env.add_filter("failed_findings", failed_findings_filter);
         Ok(Renderer { env, folders, built_in })
@@ -231,6 +232,24 @@ fn sig_filter(value: Value, figures: Option<u32>) -> Result<Value, Error> {
     Ok(Value::from(crate::charts::significant(number, figures.unwrap_or(4).clamp(1, 15))))
 }
 
+/// `{{ x | metric("torque") }}`: a number at the precision its kind of metric supports
+/// (see [`crate::format`]); none and undefined stay none (an empty CSV field, "—" elsewhere).
+fn metric_filter(value: Value, kind: String) -> Result<Value, Error> {
+    let Some(kind) = crate::format::MetricKind::named(&kind) else {
+        return Err(Error::new(
+            ErrorKind::InvalidOperation,
+            format!("metric: `{kind}` is not a metric kind (rate, r2, stderr, torque, angle, percent, count, other)"),
+        ));
+    };
+    if value.is_none() || value.is_undefined() {
+        return Ok(Value::from(()));
+    }
+    if value.kind() != ValueKind::Number {
+        return Err(Error::new(ErrorKind::InvalidOperation, format!("metric: `{value}` is not a number")));
+    }
+    Ok(Value::from(crate::format::format_metric(f64::try_from(value)?, kind)))
+}
+
 /// `{{ test.findings | failed_findings }}`: the findings that did not pass, as
 /// "characteristic: message" joined by "; " (empty when every finding passed).
 fn failed_findings_filter(findings: Value) -> Result<String, Error> {
@@ -346,6 +365,21 @@ mod tests {
             .unwrap()
             .render("b.html.j2", &Ctx { text: "x", number: None });
         assert!(err.unwrap_err().to_string().contains("not a number"));
+    }
+
+    #[test]
+    fn metric_filter_prints_at_the_metrics_precision_and_names_a_bad_kind() {
+        let dir = folder(&[
+            ("m.csv.j2", "{{ number | metric(\"torque\") }},{{ number | metric(\"rate\") }}"),
+            ("bad.csv.j2", "{{ number | metric(\"furlongs\") }}"),
+        ]);
+        let r = Renderer::with_base_folder(dir.path(), None).unwrap();
+        // Common practice, no published source: each metric printed to its own resolution.
+        let ctx = Ctx { text: "", number: Some(195.31099999999998) };
+        assert_eq!(r.render("m.csv.j2", &ctx).unwrap(), "195.31,195.3110");
+        assert_eq!(r.render("m.csv.j2", &Ctx { text: "", number: None }).unwrap(), ",");
+        let err = r.render("bad.csv.j2", &ctx).unwrap_err().to_string();
+        assert!(err.contains("`furlongs` is not a metric kind"), "{err}");
     }
 
     #[test]

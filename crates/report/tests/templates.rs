@@ -1,11 +1,11 @@
 //! Renders every shipped template with a sample context and checks what a reader sees.
 
 use twistlot_model::{
-    AttributePlan, Capability, CapabilityMethod, CharacteristicClass, CharacteristicStats, ClassDecision,
-    CurveMetrics, Disposition, DuplicateFile, Finding, Ground, GroundTopic, LotDecision, LotRecord, PartSpec,
-    PlanComparison, PlanSummary, PlannedAgainstTested, ReferenceCheck, RejectedFile, RigVerification,
-    Severity, ShiftRecord, SupersededTest, TestRecord, TestStatus, TestedOnRefusedRig, Verdict,
-    VerificationStatus,
+    Approval, AttributePlan, Capability, CapabilityMethod, CharacteristicClass, CharacteristicStats,
+    ClassDecision, CurveMetrics, Disposition, DuplicateFile, Finding, Ground, GroundTopic, LotDecision,
+    LotRecord, LotSource, PartSpec, PlanComparison, PlanSummary, PlannedAgainstTested, ReferenceCheck,
+    RejectedFile, RigUse, RigVerification, Severity, ShiftRecord, SupersededTest, TestRecord, TestStatus,
+    TestedOnRefusedRig, UnlistedLot, Verdict, VerificationStatus,
 };
 use twistlot_report::*;
 
@@ -20,7 +20,7 @@ fn spec() -> PartSpec {
                 material: { name: wire, modulus_n_per_mm2: 206000 }\n\
                 geometry: { wire_diameter_mm: 1.0, mean_diameter_mm: 8.0, body_coils: 5, leg_lengths_mm: [10, 10], wind: left }\n\
                 test: { max_angle_deg: 90 }\n\
-                characteristics:\n  rate_nmm_per_deg: { nominal: 12.0, tolerance: \"±0.8\", class: major }\n\
+                characteristics:\n  rate_nmm_per_deg: { nominal: 12.0, tolerance: \"±0.8 N·mm/°\", class: major }\n\
                 sampling:\n  level: II\n  major: { plan: attribute, aql_pct: 1.0 }\n  minor: { plan: none }\n";
     PartSpec::from_yaml("specs/TS-4410-C.yaml", text).unwrap()
 }
@@ -60,6 +60,7 @@ fn lot(disposition: Disposition) -> LotReport {
     let rates = [11.8, 11.9, 12.0, 12.0, 12.1, 12.2, 12.9];
     let plan = AttributePlan {
         code_letter: "J".into(),
+        lot_size_letter: Some("H".into()),
         sample_size: 50,
         accept: 1,
         reject: 2,
@@ -139,6 +140,7 @@ fn lot(disposition: Disposition) -> LotReport {
         next_severity: None,
         rate: None,
         grounds: decision.grounds.iter().map(|g| g.text.clone()).collect(),
+        decided_by: decision.deciding_ground().map(|g| g.text.clone()),
         report_html: "lots/L-0517.html".into(),
         report_md: "lots/L-0517.md".into(),
         duplicates: vec![DuplicateFile {
@@ -152,35 +154,80 @@ fn lot(disposition: Disposition) -> LotReport {
             started: None,
             by: "rig-b/0007-retest.txt".into(),
         }],
+        plans: decision.plan_rows(),
+        spec_file: Some("specs/TS-4410-C.yaml".into()),
+        spec_revision: Some("C".into()),
+        rejected_files: vec![RejectedFile {
+            lot: Some("L-0517".into()),
+            lot_from: Some(LotSource::Metadata),
+            ..RejectedFile::new("rig-c/0007.dat", "line 57: `12,5x` is not a number")
+        }],
+        rigs: vec![
+            RigUse {
+                rig: "RIG-A".into(),
+                tests: 2,
+                last_test: Some("2024-05-14T06:00".into()),
+                calibration_due: Some("2024-09-01T00:00:00".into()),
+                lapsed: false,
+                listed: true,
+            },
+            RigUse {
+                rig: "RIG-Z".into(),
+                tests: 1,
+                last_test: None,
+                calibration_due: None,
+                lapsed: false,
+                listed: false,
+            },
+        ],
         decision: Some(decision),
         statistics,
     };
-    let tests = vec![
-        test(EVIL, "rig-b/0412 & co.txt", Verdict::Fail, "operator note: <b>bent leg</b> | check"),
-        test("SN-2", "rig-b/0413.txt", Verdict::Pass, "inside"),
-    ];
+    let mut flagged =
+        test(EVIL, "rig-b/0412 & co.txt", Verdict::Fail, "operator note: <b>bent leg</b> | check");
+    // Two failing characteristics on one part: still one flagged part.
+    flagged.findings.push(Finding { characteristic: "torque@45".into(), ..flagged.findings[0].clone() });
+    let tests = vec![flagged, test("SN-2", "rig-b/0413.txt", Verdict::Pass, "inside")];
     let mut report = LotReport::new(record, tests, Some((spec(), "specs/TS-4410-C.yaml".into())));
     report.generated_at = "2024-05-14 06:12".into();
     report.shift = "S-0514-A".into();
     report.plant = "Invented plant".into();
-    report.rejected_files = vec![RejectedFile {
-        file: "rig-c/0007.dat".into(),
-        reason: "line 57: `12,5x` is not a number".into(),
-    }];
+    report.unassigned_files = 1;
+    let points: Vec<StripPoint> = rates
+        .iter()
+        .map(|v| StripPoint { value: *v, verdict: if *v > 12.8 { Verdict::Fail } else { Verdict::Pass } })
+        .collect();
+    let strip = StripChart {
+        characteristic: "rate",
+        unit: "N·mm/°",
+        points: &points,
+        lower: Some(11.2),
+        upper: Some(12.8),
+        nominal: Some(12.0),
+        normal_fit: None,
+    };
     report.charts = Charts {
-        rate_histogram_svg: rate_histogram_svg(&rates, Some(11.2), Some(12.8), Some(12.0), None, "rate")
-            .unwrap(),
-        curves_svg: curves_svg(
-            &[CurveLine {
+        values: vec![ValuesChart { characteristic: "rate".into(), svg: strip_chart_svg(&strip).unwrap() }],
+        curves_svg: curves_svg(&CurveChart {
+            curves: &[CurveLine {
                 label: EVIL.into(),
                 angle_deg: vec![0.0, 90.0],
                 torque_nmm: vec![0.0, 1000.0],
-                flagged: true,
+                verdict: Verdict::Fail,
             }],
-            &[ToleranceWindow { angle_deg: 45.0, lower_nmm: Some(450.0), upper_nmm: Some(550.0) }],
-        )
+            windows: &[ToleranceWindow { angle_deg: 45.0, lower_nmm: Some(450.0), upper_nmm: Some(550.0) }],
+            free_angle: None,
+            curves_in_lot: 1,
+        })
         .unwrap(),
-        oc_curve_svg: oc_curve_svg(&[(0.0, 1.0), (10.0, 0.1)], Some((4.0, 0.5)), "plan J").unwrap(),
+        oc_curve_svg: oc_curve_svg(&OcChart {
+            points: &[(0.0, 1.0), (10.0, 0.1)],
+            lot_point: Some((4.0, 0.5)),
+            aql_pct: Some(1.0),
+            caption: "plan J",
+        })
+        .unwrap(),
+        oc_note: "The deciding plan: major, n 50, Ac 1 Re 2.".into(),
     };
     report
 }
@@ -208,7 +255,10 @@ fn lot_report_html_shows_the_decision_and_escapes_export_text() {
         assert!(html.contains(shown), "missing {shown}");
     }
     // One flagged part (the passing test is not listed), and the files that do not count.
-    assert!(html.contains("<h2>Flagged parts (1)</h2>"), "flagged count");
+    assert!(
+        html.contains("<h2>Parts outside the drawing or not judged (1)</h2>"),
+        "flagged count is of parts"
+    );
     assert!(html.contains("same bytes as rig-b&#x2f;0412 &amp; co.txt"));
     assert!(html.contains("serial SN-7 was tested again; rig-b&#x2f;0007-retest.txt counts instead"));
     // Normality p absent: a dash, never "none" or an empty cell.
@@ -219,11 +269,63 @@ fn lot_report_html_shows_the_decision_and_escapes_export_text() {
     assert_eq!(html.matches("<svg ").count(), 3);
     assert!(!html.contains("&lt;svg"));
     assert!(
-        html.contains("LSL 11.2") && html.contains("USL 12.8") && html.contains("this lot: 4 % defective")
+        html.contains("drawing min 11.2 N·mm/°")
+            && html.contains("drawing max 12.8 N·mm/°")
+            && html.contains("this lot: 4 % defective")
     );
+    assert!(html.contains("The deciding plan: major, n 50, Ac 1 Re 2."));
     for caution in default_cautions() {
         assert!(html.contains(&caution.replace('\'', "&#x27;")), "missing caution {caution}");
     }
+}
+
+#[test]
+fn lot_report_shows_every_plan_the_deciding_one_and_both_letters() {
+    let html = renderer().render("lot_report.html.j2", &lot(Disposition::Reject)).unwrap();
+    assert!(html.contains("<h2>Sampling plans (1)</h2>"));
+    assert!(html.contains("<tr class=\"deciding\">"), "the deciding plan's row is marked");
+    assert!(html.contains("◀ decided the lot"));
+    assert!(html.contains("<td>H → J</td>"), "the lot size's letter, then the arrowed one");
+    assert!(html.contains("<td class=\"num\">1 / 2</td>"), "Ac / Re");
+    assert!(html.contains("<span class=\"tag\">Decided by</span> 2 nonconforming in 50; rejects on 2"));
+    let md = renderer().render("lot_report.md.j2", &lot(Disposition::Reject)).unwrap();
+    assert!(md.contains("| major, attribute | tightened | H → J | 50 | 1 / 2 | 1.00 | 50 | 2 | reject | **decided the lot** |"), "{md}");
+    assert!(md.contains("**Decided by:** 2 nonconforming in 50; rejects on 2"));
+}
+
+#[test]
+fn lot_report_has_the_data_sheet_rigs_and_a_blank_approval_block() {
+    let report = lot(Disposition::Accept);
+    let html = renderer().render("lot_report.html.j2", &report).unwrap();
+    // Every tested part, passing ones included, with rig, operator and start time.
+    assert!(html.contains("<h2>Data sheet: every tested part (2)</h2>"));
+    assert!(html.contains("<td class=\"text\" title=\"rig-b&#x2f;0413.txt\">SN-2</td>"));
+    assert!(
+        html.contains("<td class=\"num cell-pass\">12.9000</td>") || html.contains("cell-pass\">12.9000"),
+        "value at the rate's precision"
+    );
+    assert!(html.matches("<td>2024-05-14T06:00</td>").count() >= 2);
+    // Calibration: the due date when recorded, "not recorded" otherwise, and unlisted rigs flagged.
+    assert!(html.contains("2024-09-01T00:00:00") && html.contains("not recorded"));
+    assert!(html.contains("not in the plant config"));
+    // The lot's own unreadable file, and a pointer to the shift summary for unassigned ones.
+    assert!(html.contains("rig-c&#x2f;0007.dat") && html.contains("the file&#x27;s metadata"));
+    assert!(html.contains("1 file(s) of the shift could not be read and could not be assigned to any lot"));
+    // No names were given: three blank lines to sign, nothing invented.
+    assert!(html.contains("<section class=\"approval\""));
+    assert_eq!(
+        html.matches("<td class=\"line\"></td>").count(),
+        9,
+        "name, signature and date blank for three roles"
+    );
+    let mut named = lot(Disposition::Accept);
+    named.approval = Approval { reviewed_by: Some("R. Reviewer <QA>".into()), ..Approval::default() };
+    let html = renderer().render("lot_report.html.j2", &named).unwrap();
+    assert!(html.contains("<td class=\"line\">R. Reviewer &lt;QA&gt;</td>"));
+    assert_eq!(html.matches("<td class=\"line\"></td>").count(), 8);
+    let md = renderer().render("lot_report.md.j2", &named).unwrap();
+    assert!(md.contains("| Reviewed by | R. Reviewer \\<QA\\> |"), "{md}");
+    assert!(md.contains("| Tested by | ____________________ |"));
 }
 
 #[test]
@@ -233,7 +335,7 @@ fn a_lot_without_a_spec_shows_dashes_not_blanks() {
     report.spec_file = "no spec".into();
     let html = renderer().render("lot_report.html.j2", &report).unwrap();
     assert!(html.contains("<dt>Customer</dt><dd>—</dd>"));
-    assert!(html.contains("<dt>Revision</dt><dd>—</dd>"));
+    assert!(html.contains("<dt>Drawing revision</dt><dd>—</dd>"));
     let md = renderer().render("lot_report.md.j2", &report).unwrap();
     assert!(md.contains("| Customer | — |"));
 }
@@ -259,11 +361,15 @@ fn lot_report_markdown_neutralises_markup() {
     assert!(md.contains("\\<script\\>alert(1)\\</script\\>"));
     assert!(md.contains("operator note: \\<b\\>bent leg\\</b\\> \\| check"));
     assert!(md.contains("| Customer | Ketterby \\& Sons \\<invented\\> |"));
-    assert!(md.contains("| Accept on / reject on | 1 / 2 |"));
     assert!(!md.contains("<svg"));
-    // Every flagged row has the header's number of cells.
+    // Every flagged and data-sheet row has its header's number of cells.
+    let flagged_header = md.lines().find(|l| l.starts_with("| Serial | Characteristic")).unwrap();
     for line in md.lines().filter(|l| l.starts_with("| \\<script")) {
-        assert_eq!(line.matches(" | ").count(), 7, "{line}");
+        assert_eq!(line.matches(" | ").count(), flagged_header.matches(" | ").count(), "{line}");
+    }
+    let sheet_header = md.lines().find(|l| l.starts_with("| # | Serial")).unwrap();
+    for line in md.lines().filter(|l| l.starts_with("| 1 | ") || l.starts_with("| 2 | ")) {
+        assert_eq!(line.matches(" | ").count(), sheet_header.matches(" | ").count(), "{line}");
     }
     assert!(md.contains("1. These results are computed only from the rig data supplied"));
 }
@@ -273,7 +379,14 @@ fn shift_record(lots: Vec<LotRecord>) -> ShiftRecord {
         shift: "S-0514-A".into(),
         files_total: 10,
         files_accepted: 9,
-        files_rejected: vec![RejectedFile { file: EVIL.into(), reason: "not a rig export".into() }],
+        files_rejected: vec![
+            RejectedFile::new(EVIL, "not a rig export"),
+            RejectedFile {
+                lot: Some("L-1".into()),
+                lot_from: Some(LotSource::FileName),
+                ..RejectedFile::new("rig-a/L-1-007.txt", "line 9: cut off")
+            },
+        ],
         lots,
         unlisted_tests: Vec::new(),
         sink_failures: Vec::new(),
@@ -282,6 +395,17 @@ fn shift_record(lots: Vec<LotRecord>) -> ShiftRecord {
         duplicates: Vec::new(),
         rig_verifications: Vec::new(),
         plan: None,
+        unlisted_lots: vec![UnlistedLot {
+            lot: Some("L-9".into()),
+            parts: vec!["TS-4410".into()],
+            tested: 3,
+            failed: 0,
+            invalid: 0,
+            files: vec!["rig-a/L-9-001.txt".into()],
+        }],
+        spec_problems: Vec::new(),
+        skipped_files: vec![RejectedFile::new("lots.yaml", "the shift's lot list")],
+        warnings: vec!["rig-q/a.txt: rig `RIG-Q` is not in the plant config".into()],
     }
 }
 
@@ -295,6 +419,7 @@ fn shift_summary_flags_held_and_rejected_lots() {
     let mut held = lot(Disposition::Hold).lot;
     held.lot = "L-2".into();
     held.grounds = vec!["2 invalid curves".into(), "rig not verified".into()];
+    held.decided_by = Some("2 invalid curves".into());
     held.report_html = String::new();
     let summary = ShiftSummary {
         generated_at: "2024-05-14 14:00".into(),
@@ -304,8 +429,14 @@ fn shift_summary_flags_held_and_rejected_lots() {
     let html = renderer().render("shift_summary.html.j2", &summary).unwrap();
     assert!(html.contains("0 rejected · 1 held"));
     assert!(html.contains("<tr class=\"row-hold\">") && html.contains("<tr class=\"row-accept\">"));
-    assert!(html.contains("<a href=\"./lots&#x2f;L-0517.html\">lots&#x2f;L-0517.html</a>"));
-    assert!(html.contains("2 invalid curves<br>rig not verified"));
+    assert!(html.contains("<a href=\"./lots&#x2f;L-0517.html\">report</a>"));
+    assert!(html.contains("2 invalid curves<details><summary>1 more ground(s)</summary><span class=\"minor\">rig not verified</span></details>"));
+    // The deciding plan, the lot found only in the exports, each rejected file with its lot.
+    assert!(html.contains("major: n 50, Ac 1 Re 2 (tightened, letter J)"));
+    assert!(html.contains("<h2>Lots not on the lot list (1)</h2>") && html.contains("L-9"));
+    assert!(html.contains("L-1 (from the file name)") && html.contains("not known"));
+    assert!(html.contains("lots.yaml (the shift&#x27;s lot list)"));
+    assert!(html.contains("rig `RIG-Q` is not in the plant config"));
     assert!(!html.contains(EVIL) && html.contains("&lt;script&gt;"));
     assert!(html.contains("a fixture violently"));
 
@@ -464,7 +595,7 @@ fn the_plan_page_and_work_list_render_what_the_pipeline_gives() {
 }
 
 #[test]
-fn tests_csv_quotes_fields_and_leaves_missing_values_empty() {
+fn tests_csv_carries_every_metric_at_its_precision_and_quotes_fields() {
     let mut first = test("SN \"7\"", "a,b.csv", Verdict::Fail, "12.5 > 12.4");
     first.operator = Some(EVIL.into());
     first.rig = None;
@@ -475,6 +606,12 @@ fn tests_csv_quotes_fields_and_leaves_missing_values_empty() {
         band: [0.85, 1.15],
         outside_band: false,
     });
+    first.metrics.rate_r2 = Some(0.999_987_654_3);
+    first.metrics.free_angle_deg = Some(5.000_000_000_1);
+    first.metrics.torque_nmm_at.insert("45".into(), 195.31099999999998);
+    first.metrics.torque_nmm_at.insert("75".into(), 300.0);
+    first.metrics.hysteresis_pct_at.insert("45".into(), 2.345_678);
+    first.metrics.linearity_pct = Some(0.4);
     first.findings.push(Finding {
         characteristic: "torque@45".into(),
         verdict: Verdict::Pass,
@@ -486,30 +623,50 @@ fn tests_csv_quotes_fields_and_leaves_missing_values_empty() {
     second.lot = None;
     second.rig = None;
     second.operator = None;
+    second.started = None;
+    second.spec_file = None;
+    second.spec_revision = None;
     second.metrics = CurveMetrics::default();
     second.findings.clear();
     second.status = TestStatus::Superseded { by: "d.csv".into() };
     let r = renderer();
-    let mut csv_text = r.render("tests.csv.j2", &TestsCsv { header: true, rows: Vec::new() }).unwrap();
+    let columns = |header| TestsCsv {
+        header,
+        torque_angles: vec!["45".into()],
+        hysteresis_angles: vec!["45".into()],
+        rows: Vec::new(),
+    };
+    let mut csv_text = r.render("tests.csv.j2", &columns(true)).unwrap();
     for row in [first, second] {
-        csv_text.push_str(&r.render("tests.csv.j2", &TestsCsv { header: false, rows: vec![row] }).unwrap());
+        csv_text
+            .push_str(&r.render("tests.csv.j2", &TestsCsv { rows: vec![row], ..columns(false) }).unwrap());
     }
     let lines: Vec<&str> = csv_text.lines().collect();
     assert_eq!(lines.len(), 3, "{csv_text}");
     assert_eq!(
         lines[0],
-        "test_id,file,serial,part,lot,rig,operator,rate_nmm_per_deg,free_angle_deg,max_torque_nmm,verdict,findings,status,record,dynamic_rate_nmm_per_deg,natural_frequency_hz,theory_rate_nmm_per_deg,rate_to_theory"
+        "test_id,file,serial,part,lot,rig,operator,started,rig_format,spec_file,spec_revision,rate_nmm_per_deg,\
+         rate_r2,rate_stderr_nmm_per_deg,intercept_nmm,free_angle_deg,secant_rate_nmm_per_deg,torque_nmm_at_45,\
+         hysteresis_pct_at_45,energy_loss_pct,linearity_pct,set_deg,max_torque_nmm,max_angle_deg,evaluated_cycle,\
+         cycles,points_in_window,other_angles,verdict,findings,status,record,dynamic_rate_nmm_per_deg,\
+         natural_frequency_hz,theory_rate_nmm_per_deg,rate_to_theory"
     );
+    // Common practice, no published source: each metric printed to its resolution (no float noise).
     assert_eq!(
         lines[1],
-        "\"SN \"\"7\"\"-0000\",\"a,b.csv\",\"SN \"\"7\"\"\",TS-4410,L-0517,,<script>alert(1)</script>,12.5,,1000.0,fail,rate: 12.5 > 12.4,counted,torque-curve,,,12.02,1.04"
+        "\"SN \"\"7\"\"-0000\",\"a,b.csv\",\"SN \"\"7\"\"\",TS-4410,L-0517,,<script>alert(1)</script>,2024-05-14T06:00,\
+         native,specs/TS-4410-C.yaml,C,12.5000,0.999988,,,5.000,,195.31,2.346,,0.400,,1000.00,0.000,0,0,0,\
+         torque@75=300.00,fail,rate: 12.5 > 12.4,counted,torque-curve,,,12.0200,1.04000"
     );
-    assert_eq!(lines[2], "x-0000,c.csv,,,,,,,,0.0,invalid,,superseded,torque-curve,,,,");
-    // An independent reader sees 18 fields per row and the original text.
+    assert_eq!(
+        lines[2],
+        "x-0000,c.csv,,,,,,,native,,,,,,,,,,,,,,0.00,0.000,0,0,0,,invalid,,superseded,torque-curve,,,,"
+    );
+    // An independent reader sees 36 fields per row and the original text.
     let mut reader = csv::Reader::from_reader(csv_text.as_bytes());
     let records: Vec<csv::StringRecord> = reader.records().map(Result::unwrap).collect();
     assert_eq!(records.len(), 2);
-    assert!(records.iter().all(|r| r.len() == 18));
+    assert!(records.iter().all(|r| r.len() == 36));
     assert_eq!(&records[0][1], "a,b.csv");
     assert_eq!(&records[0][2], "SN \"7\"");
 }

@@ -135,6 +135,7 @@ pub fn zero_acceptance_plan(
         .map(|(_, n)| *n)
         .ok_or_else(|| SamplingError::UnknownLetter(letter.clone()))?;
     Ok(AttributePlan {
+        lot_size_letter: Some(letter.clone()),
         code_letter: letter,
         sample_size: table_n.min(lot_size),
         accept: 0,
@@ -636,6 +637,7 @@ fn decide_variables(
     let mut decision = VariablesDecision {
         characteristic: vp.characteristic.clone(),
         sample_size: 0,
+        values: 0,
         k: None,
         mean: None,
         spread: None,
@@ -665,6 +667,7 @@ fn decide_variables(
     decision.sample_size = n;
     decision.k = Some(design.k);
     let given = values.len() as u64;
+    decision.values = given;
     if given < n || (vp.sigma.is_none() && given < 2) {
         let text = format!(
             "variables on {}: hold, too few measured values: {given} of {n} required",

@@ -31,7 +31,9 @@ pub use design::{
     design_attribute, design_variables, variables_verdict, AttributeDesign, LimitKind, VariablesDesign,
     VariablesVerdict, WallisPlan,
 };
-pub use oc::{attribute_oc, noncentral_t_cdf, noncentral_t_sf, variables_oc, OcPoint};
+pub use oc::{
+    attribute_oc, noncentral_t_cdf, noncentral_t_sf, pct_where_p_accept_falls_to, variables_oc, OcPoint,
+};
 pub use scheme::{
     shipped_mil_std_105e_text, AttributePlan, InspectionLevel, Scheme, Severity, SwitchingRules,
 };

@@ -256,6 +256,31 @@ pub fn variables_p_accept_two_tails(
     pa.clamp(0.0, 1.0)
 }
 
+/// The percent defective at which a plan's probability of acceptance `p_accept(pct)`
+/// first falls to `target` (e.g. 0.05), by bisection on the OC curve, which never rises
+/// with the percent defective; 100 when it never falls that far.
+///
+/// Used to choose an OC chart's range from the plan itself, so the fall of the curve
+/// (where the plan tells good lots from bad) fills the chart whatever the sample size.
+pub fn pct_where_p_accept_falls_to(p_accept: impl Fn(f64) -> f64, target: f64) -> f64 {
+    // Written so that a NaN Pa at 100 % (no curve) also gives the whole range.
+    let falls = p_accept(100.0) <= target;
+    if !(target > 0.0 && target < 1.0 && falls) {
+        return 100.0;
+    }
+    let (mut lo, mut hi) = (0.0_f64, 100.0_f64);
+    // 50 halvings of 100 leave an interval below 1e-13 percent.
+    for _ in 0..50 {
+        let mid = 0.5 * (lo + hi);
+        if p_accept(mid) <= target {
+            hi = mid;
+        } else {
+            lo = mid;
+        }
+    }
+    hi
+}
+
 /// OC curve of a k-method plan (σ known: exact normal; unknown: noncentral t).
 pub fn variables_oc(
     sample_size: u64,
@@ -291,6 +316,24 @@ mod tests {
             let ours = attribute_p_accept(n, c, None, pct);
             assert!((ours - reference).abs() < 1e-10, "n {n} c {c} p {pct}: {ours} vs {reference}");
         }
+    }
+
+    #[test]
+    fn the_chart_range_ends_where_acceptance_falls_to_five_percent() {
+        for (n, c) in [(50u64, 0u64), (80, 2), (20, 0), (125, 5)] {
+            let pct = pct_where_p_accept_falls_to(|p| attribute_p_accept(n, c, None, p), 0.05);
+            // Source: statrs Binomial CDF (independent implementation): Pa at the point found is 0.05.
+            let reference = Binomial::new(pct / 100.0, n).unwrap().cdf(c);
+            assert!((reference - 0.05).abs() < 1e-9, "n {n} c {c}: {pct} % gives Pa {reference}");
+        }
+        // Source: for Ac 0 the binomial gives Pa = (1 − p)^n, so Pa = 0.05 at p = 1 − 0.05^(1/n)
+        // (n = 50: 5.8155 %), the closed form of the zero-acceptance OC curve.
+        let closed = 100.0 * (1.0 - 0.05_f64.powf(1.0 / 50.0));
+        let found = pct_where_p_accept_falls_to(|p| attribute_p_accept(50, 0, None, p), 0.05);
+        assert!((found - closed).abs() < 1e-9, "{found} vs {closed}");
+        // A plan that accepts everything never falls: the whole range.
+        assert_eq!(pct_where_p_accept_falls_to(|_| 1.0, 0.05), 100.0);
+        assert_eq!(pct_where_p_accept_falls_to(|_| f64::NAN, 0.05), 100.0);
     }
 
     #[test]

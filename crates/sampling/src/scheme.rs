@@ -500,6 +500,7 @@ impl Scheme {
         let hundred_percent = table_n >= lot_size;
         Ok(AttributePlan {
             code_letter,
+            lot_size_letter: Some(letter.to_string()),
             sample_size: table_n.min(lot_size),
             accept,
             reject,
@@ -704,6 +705,14 @@ mod tests {
         let p = s.plan(40, II, 0.10, Normal).unwrap();
         assert!(p.hundred_percent);
         assert_eq!((p.code_letter.as_str(), p.sample_size, p.accept, p.reject), ("K", 40, 0, 1));
+        // The lot size's own letter is kept beside the one the arrow led to.
+        assert_eq!(p.lot_size_letter.as_deref(), Some("D"));
+        // From memory: MIL-STD-105E Table I lot 281–500, level II: H; Table II-A, H at AQL 0.65: down arrow to J (n=80) Ac 1 Re 2.
+        let p = s.plan(450, II, 0.65, Normal).unwrap();
+        assert_eq!(
+            (p.lot_size_letter.as_deref(), p.code_letter.as_str(), p.sample_size),
+            (Some("H"), "J", 80)
+        );
         assert!(matches!(s.plan(1000, II, 0.7, Normal), Err(SamplingError::AqlNotInSeries(..))));
     }
 

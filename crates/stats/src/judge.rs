@@ -285,7 +285,7 @@ characteristics:
   rate_nmm_per_deg: { nominal: 4.0, tolerance: "±8%", class: major }
   secant_rate: { from_deg: 30, to_deg: 60, nominal_nmm_per_deg: 4.0, tolerance: "±10%", class: minor }
   torque_at:
-    - { angle_deg: 60, nominal_nmm: 240, tolerance: "+20/-15", class: critical }
+    - { angle_deg: 60, nominal_nmm: 240, tolerance: "+20/-15 N·mm", class: critical }
   free_angle_deg: { nominal: 0, tolerance: 3, class: minor }
   hysteresis: { at_angles_deg: [45, 80], max_pct: 8, max_energy_loss_pct: 12, class: minor }
   linearity: { max_pct: 3, class: minor }

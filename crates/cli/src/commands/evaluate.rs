@@ -1,13 +1,13 @@
 //! `twistlot evaluate`: per-part results against the part spec.
 
-use super::{open, OutputFormat, PlantArgs};
+use super::{open, require_some_path, warn_spec_problems, OutputFormat, PlantArgs};
 use crate::output::{print_rows, Table};
 use crate::{CAUTION, EXIT_SOME_REJECTED};
 use anyhow::{Context, Result};
 use std::path::PathBuf;
 use std::process::ExitCode;
-use twistlot_ingest::expand_inputs;
 use twistlot_model::{TestRecord, Verdict};
+use twistlot_pipeline::shift::shift_inputs;
 use twistlot_pipeline::{evaluate_each, EvaluateOptions, Evaluated, SpecLibrary, SpecSource};
 
 /// Arguments of `twistlot evaluate`.
@@ -47,6 +47,7 @@ fn parse_window(text: &str) -> Result<[f64; 2], String> {
 
 /// Runs the command.
 pub fn run(args: Args) -> Result<ExitCode> {
+    require_some_path(&args.paths)?;
     let mut options = args.plant.options(None);
     options.checks = args.checks.clone();
     let plant = open(&options)?;
@@ -60,7 +61,14 @@ pub fn run(args: Args) -> Result<ExitCode> {
         (None, Some(_)) => SpecSource::ByPart(&plant.specs),
         (None, None) => SpecSource::None,
     };
-    let (files, missing) = expand_inputs(&args.paths);
+    let (files, missing, skipped) = shift_inputs(&args.paths);
+    for file in &skipped {
+        eprintln!("skipped: {} ({})", file.file, file.reason);
+    }
+    let spec_problems = if fixed.is_none() { plant.specs.problems().len() } else { 0 };
+    if fixed.is_none() {
+        warn_spec_problems(&plant);
+    }
     // Reference-spring exports are read at their check angle, not judged against a part spec.
     let references = twistlot_pipeline::reference::reference_angles(&plant);
     let options = EvaluateOptions {
@@ -149,5 +157,9 @@ pub fn run(args: Args) -> Result<ExitCode> {
     if !tests.is_empty() {
         eprintln!("{CAUTION}");
     }
-    Ok(if rejected.is_empty() { ExitCode::SUCCESS } else { ExitCode::from(EXIT_SOME_REJECTED) })
+    Ok(if rejected.is_empty() && spec_problems == 0 {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(EXIT_SOME_REJECTED)
+    })
 }

@@ -1,12 +1,13 @@
 //! `twistlot ingest`: read exports and account for every file.
 
-use super::{open, OutputFormat, PlantArgs};
+use super::{open, require_some_path, OutputFormat, PlantArgs};
 use crate::output::{print_rows, Table};
 use crate::EXIT_SOME_REJECTED;
 use anyhow::{bail, Result};
 use std::path::PathBuf;
 use std::process::ExitCode;
-use twistlot_ingest::{expand_inputs, flag_duplicate_serials, ingest_ordered, FileStatus, FileSummary};
+use twistlot_ingest::{flag_duplicate_serials, ingest_ordered, FileStatus, FileSummary};
+use twistlot_pipeline::shift::shift_inputs;
 
 /// Arguments of `twistlot ingest`.
 #[derive(clap::Args)]
@@ -26,6 +27,7 @@ pub struct Args {
 
 /// Runs the command.
 pub fn run(args: Args) -> Result<ExitCode> {
+    require_some_path(&args.paths)?;
     let plant = open(&args.plant.options(None))?;
     if let Some(name) = &args.rig_format {
         if plant.formats.by_name(name).is_none() {
@@ -33,7 +35,11 @@ pub fn run(args: Args) -> Result<ExitCode> {
             bail!("there is no rig format named `{name}` (known: {})", known.join(", "));
         }
     }
-    let (files, missing) = expand_inputs(&args.paths);
+    // A shift folder's lot list and plan are not exports: skipped by name, and said so.
+    let (files, missing, skipped) = shift_inputs(&args.paths);
+    for file in &skipped {
+        eprintln!("skipped: {} ({})", file.file, file.reason);
+    }
     let mut summaries: Vec<FileSummary> = missing.iter().map(FileSummary::rejected).collect();
     ingest_ordered(
         &files,

@@ -11,9 +11,9 @@ pub mod switching;
 pub mod synth;
 pub mod theory;
 
-use anyhow::{Context, Result};
+use anyhow::{bail, Context, Result};
 use clap::ValueEnum;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use twistlot_pipeline::{OpenOptions, OpenPlant};
 
 /// How a command prints its result.
@@ -57,4 +57,22 @@ pub fn open(options: &OpenOptions) -> Result<OpenPlant> {
         None => "opening the plant".to_string(),
     };
     OpenPlant::open(options).context(what)
+}
+
+/// Refuses to run when none of the paths named on the command line exists: the command
+/// could not run at all (exit 1), the same as a missing shift folder. When some exist,
+/// the missing ones are rejected inputs like any unreadable file (exit 3).
+pub fn require_some_path(paths: &[PathBuf]) -> Result<()> {
+    if !paths.is_empty() && paths.iter().all(|p| !Path::new(p).exists()) {
+        let names: Vec<String> = paths.iter().map(|p| p.display().to_string()).collect();
+        bail!("no such file or folder: {}", names.join(", "));
+    }
+    Ok(())
+}
+
+/// Prints the part specs that did not load (their lots are held, their parts' tests not judged).
+pub fn warn_spec_problems(plant: &OpenPlant) {
+    for problem in plant.specs.problems() {
+        eprintln!("rejected spec: {}", problem.reason);
+    }
 }

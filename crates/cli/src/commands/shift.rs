@@ -1,12 +1,13 @@
 //! `twistlot shift`: run a whole shift and print each lot's disposition.
 
-use super::open;
+use super::{open, warn_spec_problems};
 use crate::output::{print_rows, Table};
 use crate::{CAUTION, EXIT_SOME_REJECTED};
 use anyhow::{bail, Context, Result};
 use std::io::IsTerminal;
 use std::path::PathBuf;
 use std::process::ExitCode;
+use twistlot_model::Approval;
 use twistlot_pipeline::{run_shift, OpenOptions};
 
 /// Arguments of `twistlot shift`.
@@ -30,6 +31,15 @@ pub struct Args {
     /// Create the history folder if it does not exist yet.
     #[arg(long)]
     init_history: bool,
+    /// Name for the reports' "tested by" line (default: the plant config's `approval.tested_by`; blank to sign by hand).
+    #[arg(long, value_name = "NAME")]
+    tested_by: Option<String>,
+    /// Name for the reports' "reviewed by" line (default: the plant config's `approval.reviewed_by`).
+    #[arg(long, value_name = "NAME")]
+    reviewed_by: Option<String>,
+    /// Name for the reports' "released by" line (default: the plant config's `approval.released_by`).
+    #[arg(long, value_name = "NAME")]
+    released_by: Option<String>,
 }
 
 /// Runs the command.
@@ -44,8 +54,14 @@ pub fn run(args: Args) -> Result<ExitCode> {
         plugin_dirs: args.plugin_dirs.clone(),
         history: args.history.clone(),
         init_history: args.init_history,
+        approval: Approval {
+            tested_by: args.tested_by.clone(),
+            reviewed_by: args.reviewed_by.clone(),
+            released_by: args.released_by.clone(),
+        },
         ..OpenOptions::default()
     })?;
+    warn_spec_problems(&plant);
     let shift_name =
         args.shift_dir.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_else(|| "shift".into());
     let out = args.out.clone().unwrap_or_else(|| PathBuf::from("out").join(&shift_name));
@@ -108,13 +124,26 @@ pub fn run(args: Args) -> Result<ExitCode> {
             println!("retest: {} of serial {} is superseded by {}", retest.file, retest.serial, retest.by);
         }
     }
-    for unlisted in &summary.unlisted_tests {
-        println!("not on the lot list: {unlisted}");
+    for unlisted in &summary.unlisted_lots {
+        println!(
+            "not on the lot list: lot {} ({} test(s), {} failed, {} invalid; evaluated, not decided)",
+            unlisted.lot.as_deref().unwrap_or("(none named)"),
+            unlisted.tested,
+            unlisted.failed,
+            unlisted.invalid
+        );
+    }
+    for skipped in &summary.skipped_files {
+        println!("skipped: {} ({})", skipped.file, skipped.reason);
+    }
+    for warning in &summary.warnings {
+        eprintln!("warning: {warning}");
     }
     for failure in &summary.sink_failures {
         eprintln!("warning: {failure}");
     }
     println!("reports: {}", out.join("shift_summary.html").display());
     eprintln!("{CAUTION} A lot is released only by the people the plant's procedures name, never by this tool alone.");
-    Ok(if summary.files_rejected.is_empty() { ExitCode::SUCCESS } else { ExitCode::from(EXIT_SOME_REJECTED) })
+    let all_read = summary.files_rejected.is_empty() && summary.spec_problems.is_empty();
+    Ok(if all_read { ExitCode::SUCCESS } else { ExitCode::from(EXIT_SOME_REJECTED) })
 }

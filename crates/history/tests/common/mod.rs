@@ -112,6 +112,7 @@ pub fn lot(
     mean_rate: f64,
 ) -> LotRecord {
     let plan = AttributePlan {
+        lot_size_letter: None,
         code_letter: "F".to_string(),
         sample_size: 20,
         accept: 1,
@@ -190,6 +191,12 @@ pub fn lot(
         }],
         decision: Some(decision),
         statistics: Vec::new(),
+        decided_by: None,
+        plans: Vec::new(),
+        spec_file: None,
+        spec_revision: None,
+        rejected_files: Vec::new(),
+        rigs: Vec::new(),
     }
 }
 
@@ -213,6 +220,12 @@ pub fn held_lot(part: &str, lot: &str) -> LotRecord {
         superseded: Vec::new(),
         decision: Some(LotDecision::hold(GroundTopic::Evidence, "no tests", None)),
         statistics: Vec::new(),
+        decided_by: None,
+        plans: Vec::new(),
+        spec_file: None,
+        spec_revision: None,
+        rejected_files: Vec::new(),
+        rigs: Vec::new(),
     }
 }
 

@@ -164,16 +164,25 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
         shift_html.contains("Rig verifications with reference springs") && shift_html.contains("REF-D-01")
     );
     assert!(!shift_html.contains("Plan against reality"), "no plan was made for this run's output folder");
-    // The shipped record already holds this shift's lots, so the run leaves it as it was.
+    // The shipped history already holds this shift's lots: the run replaces them, so every
+    // part keeps the number of lots it had (and a second run changes nothing either).
+    let stored_lots = |rows: &[Value]| -> Vec<(String, u64)> {
+        rows.iter()
+            .map(|r| (r["part"].as_str().unwrap().to_string(), r["recorded_lots"].as_u64().unwrap()))
+            .collect()
+    };
+    let after_first = stored_lots(&switching_json_with(&plant, history.path()));
+    let (_, again) = run_shift_with(&sample_shift_dir(), &plant, out.path(), &history_arg);
     assert_eq!(
-        std::fs::read_to_string(history.path().join("switching.jsonl")).unwrap(),
-        std::fs::read_to_string(&shipped_record).unwrap(),
-        "re-running a shift must replace its own entries, not add to them"
+        stored_lots(&switching_json_with(&plant, history.path())),
+        after_first,
+        "re-running a shift must replace its own lots, not add to them"
     );
+    assert_eq!(again["lots"], summary["lots"], "the same shift decided again decides the same");
 
     // Every lot lists every class's plan, the deciding one marked; L2612-040 was decided
     // by its major class (Ac 2 Re 3), not by the critical plan with the same sample size.
-    for l in lots {
+    for l in lots.iter().filter(|l| l["tested"] != 0) {
         let plans = l["plans"].as_array().unwrap();
         assert!(!plans.is_empty(), "{}", l["lot"]);
         for plan in plans {
@@ -192,10 +201,15 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
                 assert!(plan.get(key).is_some(), "plan field {key} missing in {plan}");
             }
         }
+        // A plan decided the lot, and is marked, unless the evidence held it (a rig not
+        // verified or out of calibration): then no plan is marked.
+        let by_plan = l["decided_by"]
+            .as_str()
+            .is_some_and(|g| ["critical:", "major:", "minor:", "variables"].iter().any(|c| g.starts_with(c)));
         assert_eq!(
             plans.iter().filter(|p| p["deciding"] == true).count(),
-            1,
-            "one deciding plan in {}",
+            usize::from(by_plan),
+            "deciding plans in {}",
             l["lot"]
         );
         assert!(l["decided_by"].as_str().is_some_and(|g| l["grounds"]
@@ -284,13 +298,15 @@ fn the_demo_shift_is_accounted_for_decided_and_reported() {
     let shift_html = std::fs::read_to_string(out.path().join("shift_summary.html")).unwrap();
     assert!(shift_html.contains("L2612-041-018.dat") && shift_html.contains("L2612-051-027.csv"));
 
-    // Calibration due dates come from the plant config; RIG-D has none recorded.
+    // Calibration due dates come from the plant config; the swing bench RIG-E has none recorded.
+    // RIG-C's runs out at 18:00: L2612-040 was tested before, L2612-041 after.
     let rigs_of = |id: &str| lot(&summary, id)["rigs"].as_array().unwrap().clone();
-    assert_eq!(rigs_of("L2612-040")[0]["calibration_due"], "2026-12-20T00:00:00");
+    assert_eq!(rigs_of("L2612-040")[0]["calibration_due"], "2026-12-01T18:00:00");
     assert_eq!(rigs_of("L2612-040")[0]["lapsed"], false);
-    assert!(rigs_of("L2612-050")[0]["calibration_due"].is_null());
-    assert!(report("L2612-050").contains("not recorded"));
-    assert!(html_040.contains("2026-12-20T00:00:00"));
+    assert_eq!(rigs_of("L2612-041")[0]["lapsed"], true);
+    assert!(rigs_of("L2612-070")[0]["calibration_due"].is_null());
+    assert!(report("L2612-070").contains("not recorded"));
+    assert!(html_040.contains("2026-12-01T18:00:00"));
 
     // The lot report is one self-contained page: a strip chart per toleranced
     // characteristic (TS-0815: rate, free angle, torque at 60° and 100°), the curves and
@@ -496,6 +512,17 @@ fn switching_json(plant: &Path) -> Vec<Value> {
     serde_json::from_slice(&output.stdout).unwrap()
 }
 
+/// `twistlot switching` of `plant` with its history in `history`.
+fn switching_json_with(plant: &Path, history: &Path) -> Vec<Value> {
+    let output = twistlot()
+        .args(["switching", "--plant", plant.to_str().unwrap(), "--format", "json", "--history"])
+        .arg(history)
+        .output()
+        .unwrap();
+    assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
+    serde_json::from_slice(&output.stdout).unwrap()
+}
+
 fn standing<'a>(rows: &'a [Value], part: &str) -> &'a Value {
     rows.iter().find(|r| r["part"] == part).unwrap_or_else(|| panic!("no part {part} in {rows:?}"))
 }
@@ -505,7 +532,7 @@ fn severity_carries_from_shift_to_shift_and_reruns_do_not_count_twice() {
     let root = tempfile::tempdir().unwrap();
     let history = root.path().join("history");
     let plant = plant_with(root.path(), &format!("history: {}\n", history.display()));
-    let record = history.join("switching.jsonl");
+    let record = history.clone();
 
     // A history folder that does not exist is refused (a typo must not restart every part
     // on normal inspection) unless the run is told to start a new history there.
@@ -533,13 +560,20 @@ fn severity_carries_from_shift_to_shift_and_reruns_do_not_count_twice() {
     }
     assert_eq!(dispositions, ["reject", "reject"]);
     assert_eq!(standing(&switching_json(&plant), "TS-2210")["severity"], "tightened");
-    let lines_before = std::fs::read_to_string(&record).unwrap().lines().count();
-    assert_eq!(lines_before, 2);
+    let lots_before = standing(&switching_json(&plant), "TS-2210")["recorded_lots"].clone();
+    assert_eq!(lots_before, 2);
+    // The history is Parquet in Hive folders: one file per part and shift.
+    assert!(record.join("lots/part=TS-2210/shift=s2/data.parquet").is_file());
 
-    // Re-running the second shift replaces its own entry.
+    // Re-running the second shift replaces its own lot.
     let (_, again) = run_shift(&root.path().join("s2"), &plant, &root.path().join("out-again"));
     assert_eq!(again["lots"][0]["plan"]["severity"], "normal", "s2 is still judged from before itself");
-    assert_eq!(std::fs::read_to_string(&record).unwrap().lines().count(), lines_before);
+    assert_eq!(standing(&switching_json(&plant), "TS-2210")["recorded_lots"], lots_before);
+    // The same lot run again from another folder name replaces it too: switching is keyed by lot.
+    let copy = root.path().join("s2-copy");
+    shift_of(&copy, "L-2", 1);
+    run_shift(&copy, &plant, &root.path().join("out-copy"));
+    assert_eq!(standing(&switching_json(&plant), "TS-2210")["recorded_lots"], lots_before);
 
     // The next shift is inspected on tightened, and says why.
     let dir = root.path().join("s3");

@@ -11,7 +11,7 @@ use polars::prelude::*;
 use std::collections::{BTreeMap, BTreeSet};
 use std::fmt;
 use std::str::FromStr;
-use twistlot_model::record::{angle_key, Disposition, InspectionState, Severity, SwitchingCount};
+use twistlot_model::record::{angle_key, Disposition, InspectionState, LotWire, Severity, SwitchingCount};
 use twistlot_model::spec::Verdict;
 
 /// A test metric a trend can follow, named as the command line names it.
@@ -185,6 +185,8 @@ pub struct LotTrendRow {
     pub next_severity: Option<InspectionState>,
     /// What the lot fed to the switching rules (absent for held lots).
     pub switching: Option<SwitchingCount>,
+    /// Coiler, wire lot and measured diameters, as the lot list gave them.
+    pub wire: LotWire,
 }
 
 impl LotTrendRow {
@@ -293,6 +295,10 @@ impl HistoryStore {
             "disposition",
             "severity",
             "next_severity",
+            "coiler",
+            "wire_lot",
+            "wire_d_mm",
+            "mean_d_mm",
             "schema_version",
         ];
         columns.extend(SWITCHING_COLUMNS);
@@ -312,6 +318,8 @@ impl HistoryStore {
         let (disposition, severity, next) =
             (cells.text("disposition")?, cells.text("severity")?, cells.text("next_severity")?);
         let switching = switching_counts(&cells)?;
+        let (coiler, wire_lot) = (cells.text("coiler")?, cells.text("wire_lot")?);
+        let (wire_d, mean_d) = (cells.f64("wire_d_mm")?, cells.f64("mean_d_mm")?);
         let mut rows = Vec::with_capacity(cells.height());
         for i in 0..cells.height() {
             let disposition =
@@ -335,6 +343,12 @@ impl HistoryStore {
                 severity: parse_label(&cells, "severity", severity[i].as_deref())?,
                 next_severity: parse_label(&cells, "next_severity", next[i].as_deref())?,
                 switching: switching[i].clone(),
+                wire: LotWire {
+                    coiler: coiler[i].clone(),
+                    wire_lot: wire_lot[i].clone(),
+                    wire_d_mm: wire_d[i],
+                    mean_d_mm: mean_d[i],
+                },
             });
         }
         rows.sort_by_key(|r| (r.time(), r.shift_seq, r.lot_index));

@@ -8,7 +8,7 @@ use serde::de::DeserializeOwned;
 use std::collections::BTreeMap;
 use twistlot_model::record::{
     CharacteristicStats, CurveMetrics, Disposition, DuplicateFile, InspectionState, LotDecision, LotRecord,
-    PlanRow, PlanSummary, RateSummary, RejectedFile, RigUse, Severity, SupersededTest, SwingMetrics,
+    LotWire, PlanRow, PlanSummary, RateSummary, RejectedFile, RigUse, Severity, SupersededTest, SwingMetrics,
     SwitchingCount, TestRecord, TestStatus, TheoryRate,
 };
 use twistlot_model::spec::{Finding, Verdict};
@@ -189,6 +189,10 @@ pub fn lot_columns<'a>() -> Vec<ColumnDef<LotRow<'a>>> {
         ColumnDef { name: "spec_revision", kind: Kind::Text, unit: "", doc: "that spec's drawing revision", get: |r: &R| text(r.record.spec_revision.as_deref()) },
         ColumnDef { name: "rejected_files", kind: Kind::Json, unit: "", doc: "the lot's own files that could not be read, with reasons", get: |r: &R| json(&r.record.rejected_files) },
         ColumnDef { name: "rigs", kind: Kind::Json, unit: "", doc: "the rigs the lot was tested on, with their calibration due dates", get: |r: &R| json(&r.record.rigs) },
+        ColumnDef { name: "coiler", kind: Kind::Text, unit: "", doc: "the coiler that made the lot, as the lot list gives it", get: |r: &R| text(r.record.wire.coiler.as_deref()) },
+        ColumnDef { name: "wire_lot", kind: Kind::Text, unit: "", doc: "the lot's wire material lot, as the lot list gives it", get: |r: &R| text(r.record.wire.wire_lot.as_deref()) },
+        ColumnDef { name: "wire_d_mm", kind: Kind::F64, unit: "mm", doc: "the lot's measured wire diameter", get: |r: &R| f(r.record.wire.wire_d_mm) },
+        ColumnDef { name: "mean_d_mm", kind: Kind::F64, unit: "mm", doc: "the lot's measured mean coil diameter", get: |r: &R| f(r.record.wire.mean_d_mm) },
         ColumnDef { name: "statistics", kind: Kind::Json, unit: "", doc: "the lot's statistics per toleranced characteristic (limits, mean, s, capability indices with their bounds and the reasons any are absent)", get: |r: &R| json(&r.record.statistics) },
         ColumnDef { name: "tests_from", kind: Kind::Time, unit: "plant clock", doc: "earliest readable start time of the lot's counted tests in the shift", get: |r: &R| t(r.tests_from) },
         ColumnDef { name: "tests_until", kind: Kind::Time, unit: "plant clock", doc: "latest readable start time of the lot's counted tests in the shift", get: |r: &R| t(r.tests_until) },
@@ -836,6 +840,10 @@ pub fn read_lots(cells: &Cells) -> Result<Vec<StoredLot>, HistoryError> {
     let spec_revision = cells.text("spec_revision")?;
     let rejected_files = cells.json::<Vec<RejectedFile>>("rejected_files")?;
     let rigs = cells.json::<Vec<RigUse>>("rigs")?;
+    let coiler = cells.text("coiler")?;
+    let wire_lot = cells.text("wire_lot")?;
+    let wire_d = cells.f64("wire_d_mm")?;
+    let mean_d = cells.f64("mean_d_mm")?;
     let tests_from = cells.time("tests_from")?;
     let tests_until = cells.time("tests_until")?;
     let decided_at = cells.time("decided_at")?;
@@ -905,6 +913,12 @@ pub fn read_lots(cells: &Cells) -> Result<Vec<StoredLot>, HistoryError> {
             spec_revision: spec_revision[i].clone(),
             rejected_files: rejected_files[i].clone().unwrap_or_default(),
             rigs: rigs[i].clone().unwrap_or_default(),
+            wire: LotWire {
+                coiler: coiler[i].clone(),
+                wire_lot: wire_lot[i].clone(),
+                wire_d_mm: wire_d[i],
+                mean_d_mm: mean_d[i],
+            },
         };
         out.push(StoredLot {
             shift: required(cells, "shift", i, shift[i].clone())?,

@@ -40,10 +40,10 @@ pub use plugin::{Manifest, PluginHeader, PluginKind};
 pub use record::{
     Approval, AttributePlan, CharacteristicStats, ClassDecision, CurveMetrics, DecayShape, DecidingPlan,
     Disposition, DuplicateFile, Ground, GroundTopic, InspectionState, LotDecision, LotRecord, LotSource,
-    PlanComparison, PlanKind, PlanRow, PlanSummary, PlannedAgainstTested, RateSummary, ReferenceCheck,
-    RejectedFile, RigUse, RigVerification, Severity, ShiftRecord, SpecProblem, SupersededTest, SwingMetrics,
-    SwitchingCount, TestRecord, TestStatus, TestedOnRefusedRig, TheoryRate, UnknownLabel, UnlistedLot,
-    VariablesDecision, VerificationStatus,
+    LotWire, PlanComparison, PlanKind, PlanRow, PlanSummary, PlannedAgainstTested, RateSummary,
+    ReferenceCheck, RejectedFile, RigUse, RigVerification, Severity, ShiftRecord, SpecProblem,
+    SupersededTest, SwingMetrics, SwitchingCount, TestRecord, TestStatus, TestedOnRefusedRig, TheoryRate,
+    UnknownLabel, UnlistedLot, VariablesDecision, VerificationStatus,
 };
 pub use rig::{validate_rigs, Availability, ReferenceSpring, Rig, RigFieldError, RigList, ShiftClock};
 pub use spec::{CharacteristicClass, Finding, Limits, PartSpec, Tolerance, Verdict};

@@ -956,6 +956,19 @@ pub struct SupersededTest {
     pub by: String,
 }
 
+/// What the lot list says of a lot's wire and coiling.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub struct LotWire {
+    /// Coiler that made the lot.
+    pub coiler: Option<String>,
+    /// Wire material lot.
+    pub wire_lot: Option<String>,
+    /// Measured wire diameter, mm.
+    pub wire_d_mm: Option<f64>,
+    /// Measured mean coil diameter, mm.
+    pub mean_d_mm: Option<f64>,
+}
+
 /// One decided lot, as `summary.json`, the reports, sinks and the history carry it.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct LotRecord {
@@ -1007,6 +1020,10 @@ pub struct LotRecord {
     /// Rigs that tested the lot, with their calibration due dates.
     #[serde(default)]
     pub rigs: Vec<RigUse>,
+    /// The lot's wire: its material lot and measured diameter (mm) and the measured mean
+    /// coil diameter (mm), as the lot list gives them; trending sets rate changes beside them.
+    #[serde(default)]
+    pub wire: LotWire,
     /// The full decision, with structured grounds and every class's plan.
     #[serde(skip)]
     pub decision: Option<LotDecision>,
@@ -1341,6 +1358,7 @@ mod tests {
             spec_revision: None,
             rejected_files: Vec::new(),
             rigs: Vec::new(),
+            wire: Default::default(),
             decision: None,
             statistics: Vec::new(),
         };

@@ -21,6 +21,7 @@
 pub mod dispatch;
 mod dynamic;
 pub mod evaluate;
+pub mod history;
 pub mod open;
 pub mod outputs;
 pub mod plan;

@@ -31,9 +31,7 @@ use crate::outputs::{lot_file_name, write_atomic};
 use crate::plugins::PluginError;
 use crate::shift::{read_lot_list, ShiftError, LOT_LIST};
 use crate::sink::SinkError;
-use crate::switching::{
-    conditions, describe_standing, part_rules, PartStanding, SwitchingRecord, SwitchingRecordError,
-};
+use crate::switching::{conditions, describe_standing, part_rules, PartStanding, SwitchingRecord};
 use serde::Serialize;
 use std::path::{Path, PathBuf};
 use twistlot_model::{InspectionState, ListedLot, PartSpec, PlantTime, Rig};
@@ -66,9 +64,9 @@ pub enum PlanRunError {
     /// The plant config lists no rig.
     #[error("the plant config {} lists no rigs under `rigs:`, so there is nothing to plan on", .0.display())]
     NoRigs(PathBuf),
-    /// The switching record cannot be read.
-    #[error("cannot read the switching record")]
-    History(#[source] SwitchingRecordError),
+    /// The plant's history cannot be opened or read.
+    #[error("cannot read each part's switching standing from the plant's history")]
+    History(#[source] crate::history::HistoryOpenError),
     /// The dispatch rule the plant config names is not there.
     #[error("cannot find the plant's dispatch rule")]
     Plugins(#[source] PluginError),
@@ -319,8 +317,12 @@ pub fn plan_shift(plant: &OpenPlant, shift_dir: &Path, budget: Budget) -> Result
         return Err(PlanRunError::NoRigs(config.path.clone()));
     }
     let shift = shift_dir.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
-    let record =
-        plant.history_dir.as_deref().map(SwitchingRecord::load).transpose().map_err(PlanRunError::History)?;
+    let history =
+        crate::history::open_history(plant, crate::history::Access::Read).map_err(PlanRunError::History)?;
+    let record = match &history {
+        Some(h) => Some(crate::history::switching_record(h).map_err(PlanRunError::History)?),
+        None => None,
+    };
 
     let shift_lots: Vec<String> = list.lots.iter().map(|l| l.lot.clone()).collect();
     let mut jobs = Vec::new();

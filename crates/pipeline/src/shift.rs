@@ -17,6 +17,7 @@
 pub mod retests;
 
 use crate::evaluate::{evaluate_each, CurvePreview, EvaluateOptions, Evaluated, SpecSource};
+use crate::history::HistorySink;
 use crate::open::{OpenError, OpenPlant};
 use crate::outputs::{
     lot_file_name, verdict_counts, ExecSink, ReportWriter, SummaryJsonWriter, TestsCsvWriter,
@@ -27,16 +28,17 @@ use crate::reference;
 use crate::sink::{LotCurve, LotEvent, ShiftStart, SinkSet, StoppedBy};
 use crate::switching::{
     conditions, describe_standing, part_rules, transition_consequence, PartStanding, SwitchingEntry,
-    SwitchingRecord, SwitchingRecordError, SwitchingRecordWriter,
+    SwitchingRecord,
 };
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
+use twistlot_history::HistoryStore;
 use twistlot_ingest::{expand_inputs, IngestError};
 use twistlot_model::record::{start_key, start_seconds};
 use twistlot_model::spec::{torque_label, DYNAMIC_RATE, FREQUENCY};
 use twistlot_model::{
     CharacteristicStats, DocumentError, GroundTopic, Limits, ListedLot, LotDecision, LotList, LotRecord,
-    LotSource, PlanSummary, RateSummary, RejectedFile, RigUse, ShiftRecord, TestRecord, TestStatus,
+    LotSource, LotWire, PlanSummary, RateSummary, RejectedFile, RigUse, ShiftRecord, TestRecord, TestStatus,
     UnlistedLot, Verdict,
 };
 use twistlot_sampling::{characteristic_value, decide_lot, LotInput};
@@ -68,9 +70,9 @@ pub enum ShiftError {
     /// Something the plant provides (templates, sinks) cannot be set up.
     #[error(transparent)]
     Open(#[from] OpenError),
-    /// The switching record in the plant's history folder cannot be read.
-    #[error("cannot read the switching record")]
-    History(#[source] SwitchingRecordError),
+    /// The plant's history cannot be opened or read.
+    #[error("cannot use the plant's history")]
+    History(#[source] crate::history::HistoryOpenError),
     /// An output that must not go missing could not be written.
     #[error(transparent)]
     Sink(#[from] StoppedBy),
@@ -584,6 +586,12 @@ pub fn decide_and_push(
                 .cloned()
                 .collect(),
             rigs: rig_uses(plant, &lot_tests),
+            wire: LotWire {
+                coiler: listed.coiler.clone(),
+                wire_lot: listed.wire_lot.clone(),
+                wire_d_mm: listed.wire_d_mm,
+                mean_d_mm: listed.mean_d_mm,
+            },
             decision: Some(decision),
             statistics,
         };
@@ -735,12 +743,11 @@ fn lot_statistics(
 }
 
 /// The sinks every shift feeds, in order: reports, tests CSV, the plant's exec sinks,
-/// `summary.json`, and last the switching record (so it only holds lots whose reports exist).
+/// `summary.json`, and last the history (so it only holds lots whose reports exist).
 pub fn standard_sinks(
     plant: &OpenPlant,
     out_dir: &Path,
-    record: Option<SwitchingRecord>,
-    shift: &str,
+    history: Option<HistoryStore>,
 ) -> Result<SinkSet, ShiftError> {
     let mut sinks = SinkSet::default();
     sinks.push(Box::new(
@@ -754,8 +761,8 @@ pub fn standard_sinks(
         sinks.push(Box::new(ExecSink::new(manifest, folder, out_dir)));
     }
     sinks.push(Box::new(SummaryJsonWriter::new(out_dir)));
-    if let Some(record) = record {
-        sinks.push(Box::new(SwitchingRecordWriter::new(record, shift)));
+    if let Some(store) = history {
+        sinks.push(Box::new(HistorySink::new(store)));
     }
     Ok(sinks)
 }
@@ -788,9 +795,15 @@ pub fn run_shift(
 ) -> Result<ShiftRecord, ShiftError> {
     let lots = load_lot_list(shift_dir)?;
     let shift = shift_dir.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
-    // Read before any export so that a broken record stops the run before work is spent on it.
-    let record =
-        plant.history_dir.as_deref().map(SwitchingRecord::load).transpose().map_err(ShiftError::History)?;
+    // Opened before any export, so that a broken or busy history stops the run before work
+    // is spent on it; the plant's lock is held from here to the end of the run.
+    let history =
+        crate::history::open_history(plant, crate::history::Access::Write).map_err(ShiftError::History)?;
+    let notes: Vec<String> = history.iter().flat_map(|h| h.notes.iter().cloned()).collect();
+    let record = match &history {
+        Some(h) => Some(crate::history::switching_record(h).map_err(ShiftError::History)?),
+        None => None,
+    };
     let found_plan = crate::plan_check::find_plan(out_dir, &shift)?;
     let mut collected = collect(plant, shift_dir, progress);
     if collected.files_total == 0 {
@@ -799,7 +812,8 @@ pub fn run_shift(
             skipped: collected.skipped.iter().map(|s| s.file.clone()).collect(),
         });
     }
-    let mut sinks = standard_sinks(plant, out_dir, record.clone(), &shift)?;
+    collected.warnings.extend(notes);
+    let mut sinks = standard_sinks(plant, out_dir, history.map(|h| h.store))?;
     reference::mark_references(plant, &mut collected.tests);
     let duplicates = retests::settle(&mut collected.tests);
     let generated_at = plant.stamp_now();

@@ -59,9 +59,9 @@ pub enum SinkError {
     /// An exec sink plugin failed.
     #[error("{0}")]
     Plugin(String),
-    /// The switching record could not be updated.
-    #[error("the lots could not be added to the switching record")]
-    Switching(#[source] crate::switching::SwitchingRecordError),
+    /// The history could not be written.
+    #[error("the shift could not be stored in the history")]
+    History(#[source] twistlot_history::HistoryError),
     /// Anything else, in words.
     #[error("{0}")]
     Other(String),

@@ -9,11 +9,10 @@
 
 use crate::open::OpenPlant;
 use crate::plugins::Schemes;
-use crate::sink::{LotEvent, ShiftSink, SinkError};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
-use twistlot_model::{Disposition, GroundTopic, InspectionState, LotDecision, ShiftRecord};
+use twistlot_model::{Disposition, InspectionState, LotDecision};
 use twistlot_sampling::{
     Conditions, LotOutcome, LotStanding, Severity, SwitchingRules, SwitchingState, Transition,
 };
@@ -131,7 +130,13 @@ pub struct SwitchingRecord {
 }
 
 impl SwitchingRecord {
-    /// Reads the record in `history_dir`; a missing file is an empty record.
+    /// A record of `entries` (oldest first), kept in `source` (the history folder).
+    pub fn from_entries(source: &Path, entries: Vec<SwitchingEntry>) -> SwitchingRecord {
+        SwitchingRecord { path: source.to_path_buf(), entries }
+    }
+
+    /// Reads the older `switching.jsonl` in `history_dir` (carried over into the history
+    /// once, see [`crate::history`]); a missing file is an empty record.
     pub fn load(history_dir: &Path) -> Result<Self, SwitchingRecordError> {
         let path = history_dir.join(SWITCHING_FILE);
         let file = path.display().to_string();
@@ -360,21 +365,27 @@ pub enum SwitchingError {
     /// The record is broken.
     #[error(transparent)]
     Record(#[from] SwitchingRecordError),
+    /// The history cannot be opened, read or written.
+    #[error("cannot use the plant's history")]
+    History(#[from] crate::history::HistoryOpenError),
     /// The part cannot be resumed.
     #[error("{0}")]
     Refused(String),
 }
 
-/// The plant's record and the switching rules of each part whose spec names a loaded scheme.
+/// The plant's history (opened, so its lock is held), the switching record replayed from
+/// it, and the switching rules of each part whose spec names a loaded scheme.
 fn open_plant_record(
     plant: &OpenPlant,
-) -> Result<(SwitchingRecord, BTreeMap<String, SwitchingRules>), SwitchingError> {
-    let history = plant.history_dir.as_deref().ok_or_else(|| {
+    access: crate::history::Access,
+) -> Result<(crate::history::OpenedHistory, SwitchingRecord, BTreeMap<String, SwitchingRules>), SwitchingError>
+{
+    let history = crate::history::open_history(plant, access)?.ok_or_else(|| {
         SwitchingError::NoHistory(
             plant.config.as_ref().map_or("no plant config".to_string(), |c| c.path.display().to_string()),
         )
     })?;
-    let record = SwitchingRecord::load(history)?;
+    let record = crate::history::switching_record(&history)?;
     let rules = plant
         .specs
         .parts()
@@ -383,7 +394,7 @@ fn open_plant_record(
             part_rules(spec, &plant.schemes).map(|rules| (part.to_string(), rules.clone()))
         })
         .collect();
-    Ok((record, rules))
+    Ok((history, record, rules))
 }
 
 /// The switching rules of the scheme the part's spec names, when that scheme loaded.
@@ -443,7 +454,7 @@ pub fn transition_consequence(transition: Transition) -> &'static str {
 
 /// Every part of the plant (with a spec naming a loaded scheme) and where it stands now.
 pub fn plant_standings(plant: &OpenPlant) -> Result<Vec<StandingRow>, SwitchingError> {
-    let (record, rules) = open_plant_record(plant)?;
+    let (_history, record, rules) = open_plant_record(plant, crate::history::Access::Read)?;
     Ok(rules
         .iter()
         .map(|(part, rules)| standing_row(part, &record, rules, &conditions(plant, part)))
@@ -466,7 +477,7 @@ pub fn resume_part(
     note: &str,
     label: &str,
 ) -> Result<StandingRow, SwitchingError> {
-    let (mut record, rules) = open_plant_record(plant)?;
+    let (mut history, mut record, rules) = open_plant_record(plant, crate::history::Access::Write)?;
     let Some(part_rules) = rules.get(part) else {
         return Err(SwitchingError::Refused(format!(
             "part `{part}` has no spec in the plant's parts folder naming a sampling scheme that loads"
@@ -495,44 +506,11 @@ pub fn resume_part(
         between_ac_and_re: false,
         note: Some(note.trim().to_string()),
     });
-    record.save()?;
+    history
+        .store
+        .record_resumption(part, label, note.trim(), twistlot_history::Timestamp::now())
+        .map_err(crate::history::HistoryOpenError::Store)?;
     Ok(standing_row(part, &record, part_rules, &conditions))
-}
-
-/// The switching record as a shift sink: each decided lot becomes an entry; when the
-/// shift ends the entries replace those of the same lots (from any earlier run) and the
-/// record is saved. It is the last sink fed, so the record only ever holds lots whose
-/// reports exist.
-pub struct SwitchingRecordWriter {
-    record: SwitchingRecord,
-    shift: String,
-    entries: Vec<SwitchingEntry>,
-}
-
-impl SwitchingRecordWriter {
-    /// A writer adding `shift`'s lots to `record`.
-    pub fn new(record: SwitchingRecord, shift: &str) -> SwitchingRecordWriter {
-        SwitchingRecordWriter { record, shift: shift.to_string(), entries: Vec::new() }
-    }
-}
-
-impl ShiftSink for SwitchingRecordWriter {
-    fn name(&self) -> String {
-        format!("switching record {}", self.record.path().display())
-    }
-
-    fn lot(&mut self, event: &LotEvent<'_>) -> Result<(), SinkError> {
-        let record = event.record;
-        let held = LotDecision::hold(GroundTopic::Evidence, "no decision was recorded", None);
-        let decision = record.decision.as_ref().unwrap_or(&held);
-        self.entries.push(SwitchingEntry::for_decision(&record.part, &record.lot, &self.shift, decision));
-        Ok(())
-    }
-
-    fn end(&mut self, _shift: &ShiftRecord) -> Result<(), SinkError> {
-        self.record.replace_lots(std::mem::take(&mut self.entries));
-        self.record.save().map_err(SinkError::Switching)
-    }
 }
 
 #[cfg(test)]

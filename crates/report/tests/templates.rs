@@ -180,6 +180,7 @@ fn lot(disposition: Disposition) -> LotReport {
                 listed: false,
             },
         ],
+        wire: Default::default(),
         decision: Some(decision),
         statistics,
     };

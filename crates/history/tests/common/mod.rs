@@ -197,6 +197,7 @@ pub fn lot(
         spec_revision: None,
         rejected_files: Vec::new(),
         rigs: Vec::new(),
+        wire: Default::default(),
     }
 }
 
@@ -226,6 +227,7 @@ pub fn held_lot(part: &str, lot: &str) -> LotRecord {
         spec_revision: None,
         rejected_files: Vec::new(),
         rigs: Vec::new(),
+        wire: Default::default(),
     }
 }
 
